@@ -1,0 +1,1 @@
+"""Subcommands of ``nogo``: one module each, each with ``register(subparsers)``."""

@@ -1,0 +1,128 @@
+"""Turn results into words: terminal text, JSON-ready dicts, Markdown.
+
+Reports speak in the user's names.  Every number is exact and printed as an
+integer or a fraction ("5/2"); floats never appear in a verdict.  The
+closing line of a text report reminds the reader that the answer is
+mathematics about the declared model, not about the prose around it.
+"""
+
+from __future__ import annotations
+
+from fractions import Fraction
+from typing import Any
+
+from .check import CheckResult
+from .inequality import Coord
+from .scenario import Scenario
+
+DISCLAIMER = ("This answer is about the assumptions exactly as declared in the theory file; "
+              "whether they capture what a paper means by them is for the reader to judge.")
+
+
+def q(x: Fraction | int) -> str:
+    """Exact rational as text: '2', '-5/2'."""
+    x = Fraction(x)
+    return str(x.numerator) if x.denominator == 1 else f"{x.numerator}/{x.denominator}"
+
+
+def behaviour_rows(scenario: Scenario, behaviour: dict[Coord, Fraction], keep_zero: bool = False) -> list[dict]:
+    out = []
+    for (s, a), v in behaviour.items():
+        if v or keep_zero:
+            out.append({"settings": dict(zip(scenario.party_names, s)),
+                        "outcomes": dict(zip(scenario.party_names, a)), "p": q(v)})
+    return out
+
+
+def check_to_dict(r: CheckResult, theory_file: str | None = None) -> dict[str, Any]:
+    ineq = r.inequality
+    coeffs, bound = ineq.canonical()
+    d: dict[str, Any] = {
+        "theory": theory_file,
+        "bundle": r.bundle,
+        "assumptions": list(r.assumptions),
+        "inequality": {"name": ineq.name, "text": ineq.display(), "source": ineq.source,
+                       "bound": q(ineq.bound),
+                       "canonical": {"coordinates": [f"p({' '.join(a)}|{' '.join(s)})" for s, a in ineq.scenario.coordinates()],
+                                     "coefficients": list(coeffs), "bound": bound}},
+        "verdict": r.verdict,
+        "maximum": q(r.maximum),
+        "method": r.method,
+        "model": {"kind": r.model_kind, "rows": r.shape[0], "columns": r.shape[1]},
+        "notes": r.notes,
+    }
+    if r.certificate is not None:
+        c = r.certificate
+        d["certificate"] = {
+            "bound": q(c.bound),
+            "by_assumption": c.by_assumption(),
+            "positivity_terms": c.positivity,
+            "rows": [{"assumption": w.source.assumption, "kind": w.source.kind, "clause": w.source.clause,
+                      "events": list(w.source.events), "constraint": w.source.detail, "weight": q(w.weight)}
+                     for w in c.rows],
+        }
+    if r.counterexample is not None:
+        ce = r.counterexample
+        d["counterexample"] = {
+            "value": q(ce.value),
+            "behaviour": behaviour_rows(ineq.scenario, ce.behaviour),
+            "joint": [{"entry": name, "weight": q(w)} for name, w in ce.joint],
+        }
+    return d
+
+
+def _behaviour_table(scenario: Scenario, behaviour: dict[Coord, Fraction]) -> list[str]:
+    outs = scenario.outcome_tuples()
+    head = "settings".ljust(12) + "".join(("p(" + " ".join(a) + ")").rjust(14) for a in outs)
+    lines = [head]
+    for s in scenario.setting_tuples():
+        lines.append((" ".join(s)).ljust(12) + "".join(q(behaviour.get((s, a), 0)).rjust(14) for a in outs))
+    return lines
+
+
+def check_to_text(r: CheckResult, theory_file: str | None = None, full: bool = False) -> str:
+    ineq = r.inequality
+    L = []
+    if theory_file:
+        L.append(f"theory      {theory_file}")
+    members = " + ".join(r.assumptions)
+    L.append(f"bundle      {r.bundle}" + (f" = {members}" if members != r.bundle else ""))
+    name = f"{ineq.name}: " if ineq.name else ""
+    L.append(f"inequality  {name}{ineq.display()}")
+    if ineq.source:
+        L.append(f"            source: {ineq.source}")
+    rel = "<=" if r.implied else ">"
+    L.append("")
+    L.append(f"verdict     {r.verdict.upper()}: the largest value of the left side over the bundle's set is "
+             f"{q(r.maximum)} (exact), {rel} the bound {q(ineq.bound)}")
+    for n in r.notes:
+        L.append(f"note        {n}")
+    if r.certificate is not None:
+        c = r.certificate
+        L.append("")
+        L.append("certificate (Farkas multipliers, exact; re-checked without the LP solver):")
+        L.append(f"  left side = sum of weighted constraints - sum of non-negative terms of the joint,")
+        L.append(f"  so it never exceeds {q(c.bound)}.")
+        for a, n in c.by_assumption().items():
+            L.append(f"  {a:<28} {n} constraint(s)")
+        L.append(f"  {'positivity of the joint':<28} {c.positivity} term(s)")
+        rows = c.rows if full else c.rows[:8]
+        for w in rows:
+            L.append(f"    {q(w.weight):>8} x [{w.source.assumption}] {w.source.detail}")
+        if len(c.rows) > len(rows):
+            L.append(f"    ... {len(c.rows) - len(rows)} more (use --full or --json)")
+    if r.counterexample is not None:
+        ce = r.counterexample
+        L.append("")
+        L.append(f"counterexample (exact): a behaviour the bundle allows, with value {q(ce.value)}")
+        L += ["  " + x for x in _behaviour_table(ineq.scenario, ce.behaviour)]
+        L.append(f"  its hidden joint distribution has {len(ce.joint)} non-zero entries:")
+        entries = ce.joint if full else ce.joint[:8]
+        for name_, w in entries:
+            L.append(f"    {q(w):>8}  {name_}")
+        if len(ce.joint) > len(entries):
+            L.append(f"    ... {len(ce.joint) - len(entries)} more (use --full or --json)")
+    L.append("")
+    L.append(f"method      {r.method}; model {r.model_kind}, {r.shape[0]} rows x {r.shape[1]} columns")
+    L.append(DISCLAIMER)
+    return "\n".join(L)

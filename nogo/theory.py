@@ -1,0 +1,309 @@
+"""Theory files: one scenario, a library of named atomic assumptions, bundles.
+
+An assumption is a list of *clauses*; each clause is one constraint kind of
+the design (absoluteness, independence from settings, joint existence of
+counterfactual outcomes, a hidden variable, factorisation and
+predetermination given it).  This module only reads and validates; what a
+clause means as mathematics is decided by the compilers
+(:mod:`nogo.compile` for the linear kinds).
+
+File layout (our own)::
+
+    scenario: {parties: {...}, inner_observers: {...}}
+    assumptions:
+      NAME:
+        says: one line in words
+        source: where it is published
+        absolute: [EVENT, ...]
+        independent: {events: [...], of: [PARTY.setting, ...], given: [HIDDEN]}
+        counterfactual: [PARTY, ...]
+        hidden: NAME
+        factorise: {groups: [[...], [...]], given: [HIDDEN]}
+        predetermined: {events: [...], given: [HIDDEN], depends_on: [PARTY.setting, ...]}
+    bundles:
+      NAME: [ASSUMPTION, ...]
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from .errors import InputError, Where, suggest
+from .scenario import Scenario, check_keys, scenario_from_yaml
+from .yamlread import YList, YMap, read_yaml_file, read_yaml_text
+
+
+# -- clause kinds ---------------------------------------------------------
+@dataclass(frozen=True)
+class Absolute:
+    """The events have single values in every run, jointly with all others."""
+
+    events: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class Independent:
+    """The marginal of ``events`` does not change with the ``of`` settings.
+
+    With ``given`` (hidden variables) it holds for each value of them.
+    """
+
+    events: tuple[str, ...]
+    of: tuple[str, ...]  # party names whose setting is meant
+    given: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True)
+class Counterfactual:
+    """Joint existence of an outcome for every setting of each party (``A@x``)."""
+
+    parties: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class Hidden:
+    """A hidden variable of unspecified finite size."""
+
+    name: str
+
+
+@dataclass(frozen=True)
+class Factorise:
+    """Given the hidden variables (and the settings) the groups are independent."""
+
+    groups: tuple[tuple[str, ...], ...]
+    given: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class Predetermined:
+    """The events are functions of the hidden variables and the named settings."""
+
+    events: tuple[str, ...]
+    given: tuple[str, ...]
+    depends_on: tuple[str, ...] | None  # party names; None = all settings
+
+
+Clause = Absolute | Independent | Counterfactual | Hidden | Factorise | Predetermined
+
+
+@dataclass(frozen=True)
+class Assumption:
+    name: str
+    clauses: tuple[Clause, ...]
+    says: str = ""
+    source: str = ""
+    line: int | None = None
+
+
+@dataclass
+class Theory:
+    scenario: Scenario
+    assumptions: dict[str, Assumption]
+    bundles: dict[str, tuple[str, ...]]
+    file: str | None = None
+    title: str = ""
+    text: str = field(default="", repr=False)  # the file's text, for cache keys
+
+    def resolve(self, spec: str | list[str] | tuple[str, ...]) -> tuple[str, tuple[Assumption, ...]]:
+        """A bundle name, or assumption names joined by '+' or ',' → (label, assumptions)."""
+        if isinstance(spec, (list, tuple)):
+            names, label = list(spec), "+".join(spec)
+        elif spec in self.bundles:
+            return spec, tuple(self.assumptions[a] for a in self.bundles[spec])
+        else:
+            names = [n.strip() for n in spec.replace(",", "+").split("+") if n.strip()]
+            label = spec
+        out = []
+        for n in names:
+            if n in self.bundles and len(names) > 1:
+                out.extend(self.assumptions[a] for a in self.bundles[n])
+                continue
+            if n in self.bundles:
+                return n, tuple(self.assumptions[a] for a in self.bundles[n])
+            if n not in self.assumptions:
+                raise InputError(f"no bundle or assumption named '{n}' in this theory",
+                                 Where(self.file), suggest(n, list(self.bundles) + list(self.assumptions)))
+            out.append(self.assumptions[n])
+        return label, tuple(dict.fromkeys(out))
+
+
+_ASSUMPTION_KEYS = {"says", "source", "absolute", "independent", "counterfactual", "hidden",
+                    "factorise", "predetermined"}
+
+
+class _Names:
+    """Checks event and setting names used by clauses against the scenario."""
+
+    def __init__(self, scenario: Scenario, hidden: set[str]):
+        self.scenario = scenario
+        self.hidden = hidden
+        self.events = scenario.all_event_names()
+
+    def event_list(self, raw, where: Where, allow_hidden=True) -> tuple[str, ...]:
+        if isinstance(raw, str):
+            raw = [raw]
+        if not isinstance(raw, list) or not raw:
+            raise InputError("expected a non-empty list of event names", where,
+                             "events are party names, inner observers, latent outcomes like A@1, or A@*")
+        out: list[str] = []
+        for i, v in enumerate(raw):
+            w = raw.where(i, where.key) if isinstance(raw, YList) else where
+            name = str(v)
+            if name.endswith("@*"):
+                party = name[:-2]
+                if party not in self.scenario.party_names:
+                    raise InputError(f"no party named '{party}' in '{name}'", w, suggest(party, self.scenario.party_names))
+                out += [e.name for e in self.scenario.latent_events(party)]
+            elif name in self.events or (allow_hidden and name in self.hidden):
+                out.append(name)
+            else:
+                pool = self.events + (sorted(self.hidden) if allow_hidden else [])
+                raise InputError(f"no event named '{name}'", w, suggest(name, pool))
+        return tuple(dict.fromkeys(out))
+
+    def settings_list(self, raw, where: Where) -> tuple[str, ...]:
+        if isinstance(raw, str):
+            raw = [raw]
+        if not isinstance(raw, list) or not raw:
+            raise InputError("expected a non-empty list of settings such as [A.setting]", where)
+        out = []
+        for i, v in enumerate(raw):
+            w = raw.where(i, where.key) if isinstance(raw, YList) else where
+            name = str(v)
+            party = name[:-len(".setting")] if name.endswith(".setting") else None
+            if party is None:
+                hint = f"write '{name}.setting'" if name in self.scenario.party_names else "settings are written PARTY.setting"
+                raise InputError(f"'{name}' is not a setting", w, hint)
+            if party not in self.scenario.party_names:
+                raise InputError(f"no party named '{party}'", w, suggest(party, self.scenario.party_names))
+            out.append(party)
+        return tuple(dict.fromkeys(out))
+
+    def hidden_list(self, raw, where: Where) -> tuple[str, ...]:
+        if isinstance(raw, str):
+            raw = [raw]
+        if not isinstance(raw, list) or not raw:
+            raise InputError("'given' lists hidden variables", where)
+        out = []
+        for v in raw:
+            if str(v) not in self.hidden:
+                raise InputError(f"'{v}' is not a hidden variable declared in this theory", where,
+                                 suggest(str(v), sorted(self.hidden)) or "declare it with 'hidden: NAME'")
+            out.append(str(v))
+        return tuple(out)
+
+
+def _mapping(raw, where: Where, keys: set[str], path: str) -> YMap:
+    if not isinstance(raw, dict):
+        raise InputError("expected a mapping", where, "keys: " + ", ".join(sorted(keys)))
+    check_keys(raw, keys, path)
+    return raw
+
+
+def _parse_assumption(name: str, spec, amap: YMap, names: _Names) -> Assumption:
+    path = f"assumptions.{name}"
+    w = amap.where(name, path)
+    if not isinstance(spec, dict):
+        raise InputError(f"assumption '{name}' must be a mapping of constraint kinds", w,
+                         "for example {independent: {events: [A], of: [B.setting]}}")
+    check_keys(spec, _ASSUMPTION_KEYS, path)
+    clauses: list[Clause] = []
+
+    def at(key):
+        return spec.where(key, f"{path}.{key}")
+
+    for key, raw in spec.items():
+        if key in ("says", "source"):
+            continue
+        items = raw if (key in ("independent", "factorise", "predetermined") and isinstance(raw, list)) else [raw]
+        for item in items:
+            if key == "absolute":
+                evs = names.event_list(item if isinstance(item, list) else [item], at(key), allow_hidden=False)
+                clauses.append(Absolute(evs))
+            elif key == "independent":
+                m = _mapping(item, at(key), {"events", "of", "given"}, f"{path}.independent")
+                for req in ("events", "of"):
+                    if req not in m:
+                        raise InputError(f"'independent' needs '{req}'", at(key))
+                given = names.hidden_list(m["given"], m.where("given", f"{path}.independent.given")) if "given" in m else ()
+                clauses.append(Independent(names.event_list(m["events"], m.where("events", f"{path}.independent.events")),
+                                           names.settings_list(m["of"], m.where("of", f"{path}.independent.of")),
+                                           given))
+            elif key == "counterfactual":
+                plist = item if isinstance(item, list) else [item]
+                parties = []
+                for p in plist:
+                    if str(p) not in names.scenario.party_names:
+                        raise InputError(f"no party named '{p}'", at(key), suggest(str(p), names.scenario.party_names))
+                    parties.append(str(p))
+                clauses.append(Counterfactual(tuple(parties)))
+            elif key == "hidden":
+                clauses.append(Hidden(str(item)))
+            elif key == "factorise":
+                m = _mapping(item, at(key), {"groups", "given"}, f"{path}.factorise")
+                groups_raw = m.get("groups")
+                gw = m.where("groups", f"{path}.factorise.groups")
+                if not isinstance(groups_raw, list) or len(groups_raw) < 2:
+                    raise InputError("'groups' must list at least two groups of events", gw)
+                groups = tuple(names.event_list(g, gw, allow_hidden=False) for g in groups_raw)
+                if "given" not in m:
+                    raise InputError("'factorise' needs 'given' (the hidden variables it conditions on)", at(key))
+                clauses.append(Factorise(groups, names.hidden_list(m["given"], m.where("given"))))
+            elif key == "predetermined":
+                m = _mapping(item, at(key), {"events", "given", "depends_on"}, f"{path}.predetermined")
+                if "events" not in m or "given" not in m:
+                    raise InputError("'predetermined' needs 'events' and 'given'", at(key))
+                dep = names.settings_list(m["depends_on"], m.where("depends_on")) if "depends_on" in m else None
+                clauses.append(Predetermined(names.event_list(m["events"], m.where("events"), allow_hidden=False),
+                                             names.hidden_list(m["given"], m.where("given")), dep))
+    if not clauses:
+        raise InputError(f"assumption '{name}' has no constraint", w,
+                         "give at least one of: absolute, independent, counterfactual, hidden, factorise, predetermined")
+    return Assumption(name, tuple(clauses), str(spec.get("says", "")), str(spec.get("source", "")), w.line)
+
+
+def theory_from_yaml(data, file: str | None = None, text: str = "") -> Theory:
+    if not isinstance(data, dict):
+        raise InputError("a theory file is a mapping with 'scenario', 'assumptions' and 'bundles'", Where(file, 1))
+    check_keys(data, {"scenario", "assumptions", "bundles", "title", "says", "source"}, "")
+    if "scenario" not in data:
+        raise InputError("the theory has no 'scenario'", Where(file, 1))
+    scenario = scenario_from_yaml(data["scenario"], file)
+    amap = data.get("assumptions") or YMap()
+    if not isinstance(amap, dict):
+        raise InputError("'assumptions' must be a mapping of names to constraints", data.where("assumptions", "assumptions"))
+    hidden = {str(spec["hidden"]) for spec in amap.values() if isinstance(spec, dict) and "hidden" in spec}
+    clash = hidden & set(scenario.all_event_names())
+    if clash:
+        raise InputError(f"hidden variable name(s) {sorted(clash)} clash with event names", Where(file))
+    names = _Names(scenario, hidden)
+    assumptions = {str(n): _parse_assumption(str(n), spec, amap, names) for n, spec in amap.items()}
+    bundles: dict[str, tuple[str, ...]] = {}
+    bmap = data.get("bundles") or YMap()
+    if not isinstance(bmap, dict):
+        raise InputError("'bundles' must be a mapping of names to lists of assumptions", data.where("bundles", "bundles"))
+    for bname, members in bmap.items():
+        w = bmap.where(bname, f"bundles.{bname}")
+        if str(bname) in assumptions:
+            raise InputError(f"bundle '{bname}' has the name of an assumption", w, "give it a name of its own")
+        if not isinstance(members, list) or not members:
+            raise InputError("a bundle is a non-empty list of assumption names", w)
+        for i, m in enumerate(members):
+            if str(m) not in assumptions:
+                raise InputError(f"no assumption named '{m}'", members.where(i, f"bundles.{bname}"),
+                                 suggest(str(m), assumptions))
+        bundles[str(bname)] = tuple(str(m) for m in members)
+    return Theory(scenario, assumptions, bundles, file, str(data.get("title", "")), text)
+
+
+def load_theory(path: str | Path) -> Theory:
+    """Read and validate a theory file."""
+    p = Path(path)
+    data = read_yaml_file(p)
+    return theory_from_yaml(data, str(path), p.read_text(encoding="utf-8"))
+
+
+def load_theory_text(text: str, name: str = "<text>") -> Theory:
+    return theory_from_yaml(read_yaml_text(text, name), name, text)
