@@ -82,12 +82,13 @@ def resolve_inequality(scenario: Scenario, spec: str, catalog: dict[str, Catalog
     by_lower = {k.lower(): v for k, v in catalog.items()}
     if spec.lower() in by_lower:
         return by_lower[spec.lower()].inequality(scenario)
-    if "<=" in spec or ">=" in spec or "≤" in spec or "≥" in spec:
-        return parse_inequality(scenario, spec, "", "", Where(key="inequality"))
+    looks_written = any(t in spec for t in ("<=", ">=", "≤", "≥", "(", "<", "⟨"))
+    if looks_written and not spec.endswith((".yaml", ".yml")):
+        return parse_inequality(scenario, spec, "", "", Where("command line", key="inequality"))
     p = Path(spec)
     if p.suffix in (".yaml", ".yml") and p.exists():
         return load_catalog_file(p).inequality(scenario)
-    raise InputError(f"'{spec}' is neither a catalog entry nor an inequality", Where(key="inequality"),
+    raise InputError(f"'{spec}' is neither a catalog entry nor an inequality", Where("command line", key="inequality"),
                      suggest(spec, catalog) or "write it out, e.g. '<A1 B1> + <A1 B2> + <A2 B1> - <A2 B2> <= 2'")
 
 
