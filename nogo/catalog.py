@@ -38,6 +38,12 @@ class CatalogEntry:
                 f"catalog entry '{self.name}' is written for parties {list(self.parties)}; "
                 f"the scenario has {list(scenario.party_names)}", Where(self.file, self.line),
                 "choose an entry written for this scenario's parties")
+        for p in scenario.parties:
+            if p.outcomes != ("+1", "-1"):
+                raise InputError(
+                    f"catalog entry '{self.name}' is written for outcomes +1, -1 (in that order); party '{p.name}' "
+                    f"has {list(p.outcomes)}", Where(self.file, self.line),
+                    "relabel the scenario's outcomes as [+1, -1] or write the inequality out with its own labels")
         return parse_inequality(scenario, self.expression, self.name, self.source, Where(self.file, self.line, "expression"))
 
 
