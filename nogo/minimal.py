@@ -247,11 +247,19 @@ class SearchResult:
         return [p for p in self.pool if not any(p in a.subset for a in self.minimal)]
 
     def status_of(self, subset: Iterable[str]) -> str:
-        """'implied', 'not implied' or 'unknown' (only when the search is partial), by monotonicity."""
+        """Status of any subset of the pool, by monotonicity, without an oracle call.
+
+        'implied' (above a minimal set), 'refused' (below a refused maximal
+        set: refusal is inherited by subsets), 'not implied', or 'unknown'
+        (only when the search is partial).
+        """
         s = frozenset(subset)
         if any(a.subset <= s for a in self.minimal):
             return "implied"
-        if any(s <= a.subset for a in self.maximal):
+        below = [a for a in self.maximal if s <= a.subset]
+        if any(a.status == "refused" for a in below):
+            return "refused"
+        if below:
             return "not implied"
         return "not implied" if self.complete else "unknown"
 
