@@ -1,0 +1,162 @@
+"""Possibilistic (probability-free) no-go arguments: supports, SAT, proofs.
+
+Flow: theory + bundle + support pattern → :func:`~.encode.build_space`
+(booleans "q(e|s) > 0", grouped constraints) → python-sat verdict and
+minimal / smallest unsatisfiable subsets (:mod:`.solve`) → a proof of
+numbered local steps (:mod:`.proof`) or the largest consistent support →
+re-checked by :mod:`.checker` → printed (:mod:`.render`).
+
+Public API::
+
+    from nogo.possibilistic import load_pattern, support_from_behaviour, decide_pattern
+    result = decide_pattern(theory, "Bell-local", pattern, time_limit=20)
+    result.contradiction, result.proof, result.model, result.core_names()
+"""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass, field
+from typing import Any
+
+from ..theory import Theory
+from .checker import check_model, check_proof
+from .encode import Group, SupportSpace, build_space
+from .proof import Proof, build_proof
+from .propagate import largest_support, propagate
+from .render import to_latex, to_markdown
+from .solve import Oracle, minimal_core, smallest_core
+from .support import SupportPattern, load_pattern, load_pattern_text, support_from_behaviour
+
+__all__ = ["PossibilisticResult", "decide_pattern", "load_pattern", "load_pattern_text", "support_from_behaviour",
+           "check_proof", "check_model", "to_markdown", "to_latex", "Proof", "SupportPattern", "build_space"]
+
+
+@dataclass
+class PossibilisticResult:
+    """The verdict with its evidence, in the user's names.
+
+    contradiction: True when no support satisfies the bundle and the pattern.
+    proof: for a contradiction, a proof over the smallest core found.
+    core: that core's groups (facts and assumption instances).
+    smallest_proven: whether no smaller unsatisfiable subset exists (False
+    when the search hit its time limit).
+    model: for a consistent pattern, the largest support per settings tuple
+    (joint assignments over ``events``), accepted by the independent checker.
+    """
+
+    contradiction: bool
+    label: str
+    events: tuple[str, ...]
+    parties: tuple[str, ...]
+    proof: Proof | None = None
+    core: list[Group] = field(default_factory=list)
+    first_core: list[Group] = field(default_factory=list)
+    smallest_proven: bool = False
+    lower_bound: int = 0
+    model: dict[tuple[str, ...], list[tuple[str, ...]]] | None = None
+    stats: dict[str, Any] = field(default_factory=dict)
+    notes: list[str] = field(default_factory=list)
+    zero_test: str = "declared"
+
+    @property
+    def verdict(self) -> str:
+        return "contradiction" if self.contradiction else "consistent"
+
+    def core_names(self) -> list[str]:
+        return [g.name(self.parties) for g in self.core]
+
+    def assumptions_needed(self) -> list[str]:
+        return list(dict.fromkeys(g.assumption for g in self.core if g.kind == "independent"))
+
+    def to_dict(self) -> dict[str, Any]:
+        d: dict[str, Any] = {"verdict": self.verdict, "bundle": self.label, "events": list(self.events),
+                             "zero_test": self.zero_test, "stats": self.stats, "notes": self.notes}
+        if self.contradiction:
+            d["core"] = {"facts_and_assumption_instances": self.core_names(),
+                         "assumptions_needed": self.assumptions_needed(),
+                         "size": len(self.core), "smallest_proven": self.smallest_proven,
+                         "lower_bound": self.lower_bound, "first_minimal_size": len(self.first_core)}
+            d["proof"] = self.proof.to_dict() if self.proof else None
+        else:
+            d["model"] = [{"settings": list(s), "possible": [dict(zip(self.events, e)) for e in es]}
+                          for s, es in (self.model or {}).items()]
+        return d
+
+
+def decide_pattern(theory: Theory, spec, pattern: SupportPattern, minimise: str = "smallest",
+                   time_limit: float | None = 30.0, solver: str = "g4") -> PossibilisticResult:
+    """Is the support *pattern* possible under the bundle *spec*?
+
+    Parameters
+    ----------
+    theory: loaded theory; spec: bundle name or assumption names;
+    pattern: possible / impossible observed events.
+    minimise: "smallest" (implicit hitting sets, up to *time_limit*
+    seconds), "minimal" (one minimal unsatisfiable subset) or "none"
+    (the solver's core as it comes).
+    time_limit: seconds for the smallest-subset search (None = no limit).
+
+    Returns a :class:`PossibilisticResult`; its evidence (proof or model)
+    has passed :func:`check_proof` / :func:`check_model`.
+
+    Example
+    -------
+    >>> r = decide_pattern(load_theory("theories/bell-2x2.yaml"), "Bell-local", hardy)  # doctest: +SKIP
+    >>> r.verdict, len(r.proof.steps)  # doctest: +SKIP
+    ('contradiction', 5)
+
+    References: DESIGN.md §3 (possibilistic backend); Ignatiev et al.,
+    CP 2015 (smallest MUS); Hardy, PRL 71, 1665 (1993); Mermin, PRL 65,
+    1838 (1990).
+    """
+    t0 = time.monotonic()
+    space = build_space(theory, spec, pattern)
+    t_build = time.monotonic() - t0
+    oracle = Oracle(space, solver)
+    try:
+        all_groups = [g.index for g in space.groups]
+        ok, res = oracle.solve(all_groups)
+        prop = propagate(space, None, stop_at_conflict=True)
+        if ok == prop.contradiction:
+            raise RuntimeError("the SAT solver and unit propagation disagree; this is a bug in nogo")
+        stats: dict[str, Any] = {"joint_booleans": space.n_vars, "clauses": oracle.n_clauses,
+                                 "groups": len(space.groups), "build_seconds": round(t_build, 3)}
+        result = PossibilisticResult(not ok, space.label, space.names, space.scenario.party_names,
+                                     notes=list(space.notes), zero_test=pattern.zero_test)
+        if ok:
+            full = propagate(space, None, stop_at_conflict=False)
+            model = largest_support(space, full)
+            bad = check_model(theory, spec, pattern, model)
+            if bad:
+                raise RuntimeError(f"the consistent model failed its independent check: {bad[0]}")
+            result.model = model
+        else:
+            first = res
+            if minimise in ("minimal", "smallest"):
+                first = minimal_core(oracle, res)
+            core, proven, lower = first, minimise == "minimal" and False, 0
+            if minimise == "smallest":
+                search = smallest_core(oracle, space, first, time_limit)
+                core, proven, lower = search.smallest, search.proven, search.lower_bound
+                stats["search_iterations"] = search.iterations
+                stats["search_seconds"] = round(search.seconds, 3)
+            result.core = [space.groups[g] for g in core]
+            result.first_core = [space.groups[g] for g in first]
+            result.smallest_proven = proven
+            result.lower_bound = lower
+            proof = build_proof(space, core, theory.file or "")
+            for st in proof.steps:
+                if st.kind == "transfer":
+                    st.says = theory.assumptions[st.assumption].says
+            proof.smallest = {"size": len(core), "proven": proven, "lower_bound": lower}
+            bad = check_proof(theory, spec, pattern, proof)
+            if bad:
+                raise RuntimeError(f"the proof failed its independent check: {bad[0]}")
+            result.proof = proof
+        stats["sat_calls"] = oracle.calls
+        stats["seconds"] = round(time.monotonic() - t0, 3)
+        result.stats = stats
+        return result
+    finally:
+        oracle.close()

@@ -1,0 +1,253 @@
+"""An independent checker for possibilistic proofs and models.
+
+It reads only the declarations (theory, bundle), the support pattern and the
+printed proof or model; it does not use the SAT encoding, the solver, the
+propagation or the compiler's helpers, so a bug there cannot hide here.
+Which events are present, which joint assignments obey the read-out rules
+and what each independence assumption allows are re-derived from the
+declarations in this file.
+
+A proof is accepted only if every step is a correct local inference from
+the fact or assumption it names and from statements of *earlier* steps it
+cites, and the last step is a contradiction (see
+:mod:`nogo.possibilistic.proof` for the three step kinds).
+"""
+
+from __future__ import annotations
+
+import itertools
+from typing import Any
+
+from ..theory import Absolute, Counterfactual, Factorise, Hidden, Independent, Predetermined, Theory
+from .support import SupportPattern
+
+
+class _World:
+    """Present events and their joint assignments, straight from the declarations."""
+
+    def __init__(self, theory: Theory, spec):
+        sc = theory.scenario
+        self.sc = sc
+        self.label, self.assumptions = theory.resolve(spec)
+        absolute, cf = set(), set()
+        for a in self.assumptions:
+            for c in a.clauses:
+                if isinstance(c, (Hidden, Factorise, Predetermined)) or (isinstance(c, Independent) and c.given):
+                    raise ValueError(f"'{a.name}' has no possibilistic reading in this checker")
+                if isinstance(c, Absolute):
+                    absolute.update(c.events)
+                elif isinstance(c, Counterfactual):
+                    cf.update(c.parties)
+        # (name, outcomes, rule) with rule = None | ("inner", lab, read_out_at, relabel, own outcomes)
+        ev: list[tuple[str, tuple[str, ...], Any]] = [(p.name, p.outcomes, None) for p in sc.parties]
+        for o in sc.inner:
+            if o.name in absolute:
+                ev.append((o.name, o.outcomes, ("inner", o.lab, o.read_out_at, o.relabel, o.outcomes)))
+        for p in sc.parties:
+            if p.name in cf:
+                for x in p.settings:
+                    ev.append((f"{p.name}@{x}", p.outcomes, ("latent", p.name, x)))
+        self.events = ev
+        self.names = tuple(e[0] for e in ev)
+        self.parties = sc.party_names
+        self._cache: dict = {}
+
+    def _ok(self, s, e) -> bool:
+        pos = {n: i for i, n in enumerate(self.names)}
+        for (name, outs, rule), val in zip(self.events, e):
+            if rule is None:
+                continue
+            if rule[0] == "inner":
+                _, lab, ro, relabel, own = rule
+                pi = self.parties.index(lab)
+                if ro is not None and s[pi] == ro:
+                    shown = self.sc.parties[pi].outcomes[relabel[own.index(val)]]
+                    if e[pos[lab]] != shown:
+                        return False
+            else:
+                _, party, x = rule
+                if s[self.parties.index(party)] == x and e[pos[party]] != val:
+                    return False
+        return True
+
+    def joint(self, s) -> list[tuple[str, ...]]:
+        if s not in self._cache:
+            self._cache[s] = [e for e in itertools.product(*(o for _, o, _ in self.events)) if self._ok(s, e)]
+        return self._cache[s]
+
+    def matches(self, e, cube) -> bool:
+        for k, v in cube:
+            if k not in self.names or e[self.names.index(k)] != v:
+                return False
+        return True
+
+    def valid_settings(self, s) -> bool:
+        return len(s) == len(self.parties) and all(x in p.settings for x, p in zip(s, self.sc.parties))
+
+
+def check_proof(theory: Theory, spec, pattern: SupportPattern, proof) -> list[str]:
+    """Problems found in *proof* (empty list: every step checks out).
+
+    Parameters
+    ----------
+    theory, spec: the declarations and the bundle the proof claims to use;
+    pattern: the support pattern; proof: a :class:`~nogo.possibilistic.proof.Proof`
+    or its ``to_dict()`` form.
+    """
+    from .proof import Proof  # data class only
+
+    if isinstance(proof, dict):
+        try:
+            proof = Proof.from_dict(proof)
+        except (KeyError, TypeError, ValueError) as exc:
+            return [f"the proof is not well formed: {exc}"]
+    w = _World(theory, spec)
+    problems: list[str] = []
+    if tuple(proof.events) != w.names:
+        return [f"the proof speaks of events {list(proof.events)}, but under '{w.label}' the present events are "
+                f"{list(w.names)}"]
+    by_name = {a.name: a for a in w.assumptions}
+    established: dict[int, list[tuple[tuple[str, ...], tuple]]] = {}
+    if not proof.steps:
+        return ["the proof has no steps"]
+
+    def covered(s, e, uses) -> bool:
+        return any(st == s and w.matches(e, cube) for u in uses for st, cube in established.get(u, []))
+
+    for i, step in enumerate(proof.steps):
+        n = step.number
+        tag = f"step {n}"
+        if n != i + 1:
+            problems.append(f"{tag}: steps must be numbered 1, 2, 3, … (found {n} at position {i + 1})")
+            return problems
+        bad_uses = [u for u in step.uses if not (isinstance(u, int) and 1 <= u < n)]
+        if bad_uses:
+            problems.append(f"{tag}: cites {bad_uses}, which are not earlier steps")
+            return problems
+        s = tuple(step.settings)
+        if not w.valid_settings(s):
+            problems.append(f"{tag}: {s} is not a settings tuple of the scenario")
+            return problems
+        last = i == len(proof.steps) - 1
+        if step.kind == "observed":
+            out = []
+            for stt in step.statements:
+                names = tuple(k for k, _ in stt.cube)
+                a = tuple(v for _, v in stt.cube)
+                if tuple(stt.settings) != s or names != w.parties:
+                    problems.append(f"{tag}: an observed statement must give every party's outcome at {s}")
+                    return problems
+                if (s, a) not in pattern.impossible:
+                    problems.append(f"{tag}: the pattern does not say p({', '.join(a)} | {', '.join(s)}) = 0")
+                    return problems
+                out.append((s, tuple(stt.cube)))
+            established[n] = out
+        elif step.kind == "transfer":
+            a = by_name.get(step.assumption)
+            if a is None:
+                problems.append(f"{tag}: '{step.assumption}' is not an assumption of '{w.label}'")
+                return problems
+            if not (0 <= step.clause < len(a.clauses)) or not isinstance(a.clauses[step.clause], Independent):
+                problems.append(f"{tag}: clause {step.clause} of '{a.name}' is not an independence clause")
+                return problems
+            c = a.clauses[step.clause]
+            if c.given:
+                problems.append(f"{tag}: '{a.name}' holds only given hidden variables; it cannot transfer supports")
+                return problems
+            kept = {x for x in c.events if x in w.names}
+            f = tuple(step.from_settings)
+            if not w.valid_settings(f) or f == s:
+                problems.append(f"{tag}: {f} and {s} are not two different settings tuples")
+                return problems
+            moved = {w.parties.index(p) for p in c.of}
+            if any(f[j] != s[j] for j in range(len(s)) if j not in moved):
+                problems.append(f"{tag}: settings {f} and {s} differ in a party whose setting '{a.name}' does not name")
+                return problems
+            out = []
+            for stt in step.statements:
+                if tuple(stt.settings) != s:
+                    problems.append(f"{tag}: a statement is placed at {tuple(stt.settings)}, not at {s}")
+                    return problems
+                extra = [k for k, _ in stt.cube if k not in kept]
+                if extra:
+                    problems.append(f"{tag}: '{a.name}' says nothing of {extra}")
+                    return problems
+                for e in w.joint(f):
+                    if w.matches(e, stt.cube) and not covered(f, e, step.uses):
+                        shown = ", ".join(f"{k}={v}" for k, v in zip(w.names, e))
+                        problems.append(f"{tag}: at {f} the run ({shown}) is not excluded by steps {step.uses}")
+                        return problems
+                out.append((s, tuple(stt.cube)))
+            established[n] = out
+        elif step.kind == "contradiction":
+            if not last:
+                problems.append(f"{tag}: a contradiction must be the last step")
+                return problems
+            a = tuple(step.outcomes)
+            if a:
+                if (s, a) not in pattern.possible:
+                    problems.append(f"{tag}: the pattern does not say p({', '.join(a)} | {', '.join(s)}) > 0")
+                    return problems
+                cube = tuple(zip(w.parties, a))
+            else:
+                cube = ()
+            for e in w.joint(s):
+                if w.matches(e, cube) and not covered(s, e, step.uses):
+                    shown = ", ".join(f"{k}={v}" for k, v in zip(w.names, e))
+                    problems.append(f"{tag}: the run ({shown}) at {s} is not excluded by steps {step.uses}")
+                    return problems
+            return problems
+        else:
+            problems.append(f"{tag}: unknown step kind '{step.kind}'")
+            return problems
+    problems.append("the proof does not end in a contradiction")
+    return problems
+
+
+def check_model(theory: Theory, spec, pattern: SupportPattern, support: dict) -> list[str]:
+    """Problems found in a possibilistic model (empty list: it satisfies everything).
+
+    *support* maps each settings tuple to the list of joint assignments
+    (tuples over the present events, in the order of the declarations) that
+    are possible there.
+    """
+    w = _World(theory, spec)
+    problems = []
+    sets = {}
+    for s in w.sc.setting_tuples():
+        es = [tuple(e) for e in support.get(s, [])]
+        if not es:
+            problems.append(f"nothing happens at settings {s}")
+        for e in es:
+            if len(e) != len(w.names) or e not in set(w.joint(s)):
+                problems.append(f"{e} at {s} breaks a read-out rule or is not an assignment of {list(w.names)}")
+        sets[s] = set(es)
+    if problems:
+        return problems
+    n = len(w.parties)
+    for s in w.sc.setting_tuples():
+        shown = {e[:n] for e in sets[s]}
+        for a in w.sc.outcome_tuples():
+            if (s, a) in pattern.possible and a not in shown:
+                problems.append(f"the pattern says p({', '.join(a)} | {', '.join(s)}) > 0; the model never shows it")
+            if (s, a) in pattern.impossible and a in shown:
+                problems.append(f"the pattern says p({', '.join(a)} | {', '.join(s)}) = 0; the model shows it")
+    for a in w.assumptions:
+        for c in a.clauses:
+            if not isinstance(c, Independent):
+                continue
+            idx = [w.names.index(x) for x in c.events if x in w.names]
+            if not idx:
+                continue
+            moved = {w.parties.index(p) for p in c.of}
+            settings = w.sc.setting_tuples()
+            for s, t in itertools.combinations(settings, 2):
+                if any(s[j] != t[j] for j in range(n) if j not in moved):
+                    continue
+                ms = {tuple(e[i] for i in idx) for e in sets[s]}
+                mt = {tuple(e[i] for i in idx) for e in sets[t]}
+                if ms != mt:
+                    diff = sorted(ms ^ mt)[0]
+                    problems.append(f"'{a.name}': the support of {[w.names[i] for i in idx]} differs between "
+                                    f"{s} and {t} (e.g. {diff})")
+    return problems

@@ -1,0 +1,227 @@
+"""The possibilistic reading of a bundle: supports instead of probabilities.
+
+The same declarations that :mod:`nogo.compile` turns into linear equalities
+are read over *supports* (DESIGN.md §3, backend 3).  For every settings
+tuple s and every joint assignment e of the present events that obeys the
+read-out rules there is one boolean, "q(e | s) > 0".  Then
+
+* an observed event (a | s) is possible  ⇔  some e at s with outcomes a is;
+* it is impossible                       ⇔  every such e is impossible;
+* in every run something happens (normalisation: a hard constraint);
+* "E is independent of the settings S": for settings tuples s, s' that
+  differ only in the settings of S and every value v of the present events
+  of E, [some e at s with e|E = v is possible] ⇔ [the same at s'].  For a
+  probability distribution equal marginals have equal supports, so this is
+  implied by the linear constraint (a support-level relaxation; a
+  contradiction here is a contradiction there).
+
+Every clause has at most one negative literal (dual Horn): the formula is
+satisfiable exactly when pushing "impossible" through the constraints
+(unit propagation) never empties a positive clause, and the largest
+possible support is then a model.  :mod:`nogo.possibilistic.proof` prints
+that propagation as a proof; this module builds the clauses for python-sat,
+grouped by the fact or assumption instance they come from (a selector
+literal per group) so that minimal unsatisfiable subsets speak in names.
+
+Hidden-variable kinds (``hidden``, ``factorise``, ``predetermined``,
+``independent ... given``) have no possibilistic reading here yet: the
+Bell-local reading goes through ``counterfactual`` + ``setting
+independence`` (equivalent by A. Fine, PRL 48, 291 (1982)).
+"""
+
+from __future__ import annotations
+
+import itertools
+from dataclasses import dataclass, field
+
+from ..compile import present_events, read_out_ok
+from ..errors import InputError, Where
+from ..scenario import EventVar, Scenario
+from ..theory import Absolute, Counterfactual, Factorise, Hidden, Independent, Predetermined, Theory
+from .support import SupportPattern
+
+
+@dataclass(frozen=True)
+class Group:
+    """One named constraint of the possibilistic model (one selector literal).
+
+    kind: "possible" / "impossible" (an observed fact of the pattern) or
+    "independent" (one instance of an independence clause: two settings
+    tuples and every value of the kept events).
+    """
+
+    index: int
+    kind: str
+    settings: tuple[str, ...]  # the fact's settings, or the first tuple of the pair
+    outcomes: tuple[str, ...] = ()  # the fact's outcomes
+    other: tuple[str, ...] = ()  # the second settings tuple of the pair
+    assumption: str = ""
+    clause: int = 0
+    events: tuple[str, ...] = ()  # kept (present) events of the clause
+    of: tuple[str, ...] = ()  # parties whose settings move
+
+    def name(self, party_names: tuple[str, ...]) -> str:
+        st = ",".join(self.settings)
+        if self.kind in ("possible", "impossible"):
+            sign = ">" if self.kind == "possible" else "="
+            return f"p({','.join(self.outcomes)}|{st}) {sign} 0"
+        return f"{self.assumption}[{st} ~ {','.join(self.other)}]"
+
+
+@dataclass
+class SupportSpace:
+    """Booleans q(e|s) > 0 and the grouped constraints over them.
+
+    ``joint[s]`` lists the joint assignments e (tuples over ``events``) that
+    obey the read-out rules at s; variable ids are 1-based and
+    ``var[(s, e)]`` gives one.  ``buckets[g]`` holds, for an independence
+    group, two dicts v -> variable ids (one per settings tuple of the pair);
+    ``fact_vars[g]`` the variables of an observed fact.
+    """
+
+    scenario: Scenario
+    label: str
+    assumptions: tuple[str, ...]
+    events: tuple[EventVar, ...]
+    settings: list[tuple[str, ...]]
+    joint: dict[tuple[str, ...], list[tuple[str, ...]]]
+    var: dict[tuple[tuple[str, ...], tuple[str, ...]], int]
+    groups: list[Group]
+    fact_vars: dict[int, list[int]] = field(default_factory=dict)
+    buckets: dict[int, tuple[dict, dict]] = field(default_factory=dict)
+    notes: list[str] = field(default_factory=list)
+    pattern: SupportPattern | None = None
+
+    @property
+    def names(self) -> tuple[str, ...]:
+        return tuple(e.name for e in self.events)
+
+    @property
+    def n_vars(self) -> int:
+        return len(self.var)
+
+    def decode(self, v: int) -> tuple[tuple[str, ...], tuple[str, ...]]:
+        return self._inverse[v - 1]
+
+    def __post_init__(self):
+        self._inverse = [None] * len(self.var)
+        for k, i in self.var.items():
+            self._inverse[i - 1] = k
+
+    def vars_at(self, s: tuple[str, ...]) -> list[int]:
+        return [self.var[(s, e)] for e in self.joint[s]]
+
+    def group_clauses(self, g: Group) -> list[list[int]]:
+        """The clauses of one group, without its selector."""
+        if g.kind == "impossible":
+            return [[-x] for x in self.fact_vars[g.index]]
+        if g.kind == "possible":
+            return [list(self.fact_vars[g.index])]
+        left, right = self.buckets[g.index]
+        out = []
+        for a, b in ((left, right), (right, left)):
+            for v, xs in a.items():
+                for x in xs:
+                    out.append([-x] + list(b.get(v, ())))
+        return out
+
+    def hard_clauses(self) -> list[list[int]]:
+        """Normalisation: in every run some joint assignment occurs."""
+        return [self.vars_at(s) for s in self.settings]
+
+
+_NO_READING = ("the possibilistic reading of '{kind}' (in assumption '{name}') is not available yet",
+               "state Bell locality as 'counterfactual' + setting independence of the A@* outcomes "
+               "(equivalent by Fine's theorem), or drop this assumption")
+
+
+def check_readable(theory: Theory, assumptions) -> None:
+    """Refuse, with a clear message, kinds that have no support reading here."""
+    for a in assumptions:
+        for c in a.clauses:
+            kind = None
+            if isinstance(c, Hidden):
+                kind = "hidden"
+            elif isinstance(c, Factorise):
+                kind = "factorise"
+            elif isinstance(c, Predetermined):
+                kind = "predetermined"
+            elif isinstance(c, Independent) and c.given:
+                kind = "independent ... given"
+            if kind:
+                msg, hint = _NO_READING
+                raise InputError(msg.format(kind=kind, name=a.name), Where(theory.file, a.line, f"assumptions.{a.name}"), hint)
+
+
+def build_space(theory: Theory, spec, pattern: SupportPattern) -> SupportSpace:
+    """Read *spec* (bundle or assumption names) over supports, with *pattern*'s facts.
+
+    Parameters
+    ----------
+    theory: a loaded theory; spec: a bundle name or assumption names
+    (``theory.resolve``); pattern: the observed support pattern.
+
+    Returns a :class:`SupportSpace` whose groups are the pattern's facts
+    (one per listed event) followed by one group per instance of every
+    independence clause (a pair of settings tuples: each tuple with its
+    moved parties at their first setting, as :mod:`nogo.compile` does).
+
+    Example
+    -------
+    >>> space = build_space(load_theory("theories/bell-2x2.yaml"), "Bell-local", pattern)  # doctest: +SKIP
+    >>> len(space.groups)  # doctest: +SKIP
+    """
+    sc = theory.scenario
+    if tuple(pattern.parties) != sc.party_names:
+        raise InputError(f"the pattern's parties {list(pattern.parties)} differ from the theory's {list(sc.party_names)}")
+    label, assumptions = theory.resolve(spec)
+    check_readable(theory, assumptions)
+    events = present_events(sc, assumptions)
+    names = [e.name for e in events]
+    n_party = len(sc.parties)
+    settings = sc.setting_tuples()
+    joint: dict = {}
+    var: dict = {}
+    for s in settings:
+        joint[s] = []
+        for e in itertools.product(*(ev.outcomes for ev in events)):
+            if read_out_ok(sc, events, s, e):
+                joint[s].append(e)
+                var[(s, e)] = len(var) + 1
+    groups: list[Group] = []
+    fact_vars: dict[int, list[int]] = {}
+    by_obs: dict = {}
+    for s in settings:
+        for e in joint[s]:
+            by_obs.setdefault((s, e[:n_party]), []).append(var[(s, e)])
+    for kind, coords in (("impossible", pattern.impossible), ("possible", pattern.possible)):
+        for (s, a) in sorted(coords):
+            g = Group(len(groups), kind, s, a)
+            groups.append(g)
+            fact_vars[g.index] = by_obs.get((s, a), [])
+    buckets: dict = {}
+    notes: list[str] = []
+    for a in assumptions:
+        for ci, c in enumerate(a.clauses):
+            if not isinstance(c, Independent):
+                continue
+            kept = [n for n in c.events if n in names]
+            if not kept:
+                notes.append(f"{a.name}: none of {list(c.events)} is present; by projection it adds nothing")
+                continue
+            idx = [names.index(n) for n in kept]
+            moved = [sc.party_index(p) for p in c.of]
+            for s in settings:
+                base = tuple(sc.parties[i].settings[0] if i in moved else s[i] for i in range(n_party))
+                if base == s:
+                    continue
+                left: dict = {}
+                right: dict = {}
+                for side, t in ((left, s), (right, base)):
+                    for e in joint[t]:
+                        side.setdefault(tuple(e[i] for i in idx), []).append(var[(t, e)])
+                g = Group(len(groups), "independent", s, (), base, a.name, ci, tuple(kept), tuple(c.of))
+                groups.append(g)
+                buckets[g.index] = (left, right)
+    return SupportSpace(sc, label, tuple(x.name for x in assumptions), tuple(events), settings, joint, var,
+                        groups, fact_vars, buckets, notes, pattern)

@@ -1,0 +1,240 @@
+"""Proofs a person can follow: numbered steps, each a local inference.
+
+A proof is a list of steps; each step establishes *statements* of one form,
+
+    "no run with settings s has the events C"   (q(C | s) = 0, C a partial
+                                                 assignment of present events)
+
+and says why, citing one fact or one assumption and earlier steps only:
+
+* **observed** — the pattern says p(a | s) = 0: no run at s shows a;
+* **transfer** — an independence assumption between settings s' and s (they
+  differ only in the settings the assumption names), and C uses only events
+  the assumption speaks of.  Every joint assignment at s' that matches C is
+  excluded by the cited steps (a finite case check), so the marginal of C
+  at s' has no support there, hence none at s;
+* **contradiction** — the pattern says p(a | s) > 0 (or: something happens
+  in every run), yet every joint assignment at s that shows a is excluded
+  by the cited steps.
+
+This is unit propagation of the dual-Horn clauses of
+:mod:`nogo.possibilistic.encode`, lifted from single joint assignments to
+partial ones so that a step reads like the hand proofs of GHZ-type
+arguments (Mermin, PRL 65, 1838 (1990)).  :mod:`nogo.possibilistic.checker`
+re-verifies every step without a solver.
+"""
+
+from __future__ import annotations
+
+from dataclasses import asdict, dataclass, field
+from typing import Any
+
+from .encode import SupportSpace
+from .propagate import Propagation, propagate
+
+
+@dataclass
+class Statement:
+    """No run with these settings has these event values."""
+
+    settings: tuple[str, ...]
+    cube: tuple[tuple[str, str], ...]  # (event name, value)
+
+
+@dataclass
+class Step:
+    number: int
+    kind: str  # "observed" | "transfer" | "contradiction"
+    settings: tuple[str, ...]  # where the step's statements (or the contradiction) hold
+    statements: list[Statement] = field(default_factory=list)
+    uses: list[int] = field(default_factory=list)  # earlier step numbers
+    assumption: str = ""  # transfer: the assumption ...
+    clause: int = 0  # ... and its clause
+    says: str = ""  # the assumption's words
+    from_settings: tuple[str, ...] = ()  # transfer: where the statements are first shown
+    outcomes: tuple[str, ...] = ()  # contradiction: the possible observed outcomes (empty = normalisation)
+    cases: list[tuple[tuple[tuple[str, str], ...], int]] = field(default_factory=list)  # for readers
+
+
+@dataclass
+class Proof:
+    theory: str
+    bundle: str
+    events: tuple[str, ...]  # present events, in order
+    parties: tuple[str, ...]
+    steps: list[Step]
+    read_outs: list[str] = field(default_factory=list)
+    pattern: str = ""
+    zero_test: str = "declared"
+    assumptions_used: tuple[str, ...] = ()
+    facts_used: int = 0
+    smallest: dict[str, Any] = field(default_factory=dict)
+
+    def to_dict(self) -> dict[str, Any]:
+        d = asdict(self)
+        for st in d["steps"]:
+            st["statements"] = [{"settings": list(s["settings"]), "excluded": dict(s["cube"])} for s in st["statements"]]
+            st["cases"] = [{"values": dict(c), "step": n} for c, n in st["cases"]]
+        return d
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any]) -> "Proof":
+        steps = []
+        for st in d["steps"]:
+            st = dict(st)
+            st["statements"] = [Statement(tuple(s["settings"]), tuple((k, str(v)) for k, v in s["excluded"].items()))
+                                for s in st["statements"]]
+            st["cases"] = [(tuple(c["values"].items()), c["step"]) for c in st.get("cases", [])]
+            for k in ("settings", "from_settings", "outcomes"):
+                st[k] = tuple(st.get(k, ()))
+            steps.append(Step(**st))
+        rest = {k: v for k, v in d.items() if k != "steps"}
+        for k in ("events", "parties", "assumptions_used"):
+            rest[k] = tuple(rest.get(k, ()))
+        return cls(steps=steps, **rest)
+
+
+def _read_out_notes(space: SupportSpace) -> list[str]:
+    sc = space.scenario
+    out = []
+    for ev in space.events:
+        if ev.kind == "inner":
+            o = sc.observer(ev.name)
+            if o.read_out_at is not None:
+                rel = "" if o.relabel == tuple(range(len(o.outcomes))) else " (relabelled)"
+                out.append(f"{o.lab} = {o.name}{rel} when {o.lab}'s setting is {o.read_out_at}")
+        elif ev.kind == "latent":
+            out.append(f"{ev.party} = {ev.name} when {ev.party}'s setting is {ev.setting}")
+    return out
+
+
+def build_proof(space: SupportSpace, core: list[int], theory_file: str = "") -> Proof:
+    """The propagation over the groups of *core*, cut to what the contradiction needs.
+
+    Parameters
+    ----------
+    space: the support space; core: group indices of an unsatisfiable
+    subset (a minimal one gives a proof in which every group is used).
+
+    Returns a :class:`Proof` whose steps are ordered by propagation round,
+    so each cites only earlier steps.  Statements are widened from full
+    assignments of an assumption's events to the shortest partial
+    assignments that the earlier rounds already exclude.
+    """
+    prop: Propagation = propagate(space, core, stop_at_conflict=True)
+    if prop.conflict is None:
+        raise ValueError("the given groups are not contradictory; no proof")
+    dead = prop.dead
+    names = space.names
+    n_party = len(space.scenario.parties)
+    groups = space.groups
+
+    def rnd(x):
+        r = dead[x]
+        return 0 if r[0] == "fact" else r[1]
+
+    facts_used: set[int] = set()
+    needs: dict[tuple, set] = {}  # (round, group, direction) -> values needed
+    supplier: dict[int, tuple] = {}  # var -> the step key that excluded it
+
+    def need(x):
+        r = dead[x]
+        if r[0] == "fact":
+            facts_used.add(r[1])
+            supplier[x] = ("fact", groups[r[1]].settings)
+        else:
+            key = r[1:4]
+            needs.setdefault(key, set()).add(r[4])
+
+    kind, what = prop.conflict
+    if kind == "possible":
+        g = groups[what]
+        end_s, end_a = g.settings, g.outcomes
+        end_vars = space.fact_vars[what]
+    else:
+        end_s, end_a = what, ()
+        end_vars = space.vars_at(what)
+    for x in end_vars:
+        need(x)
+
+    cubes: dict[tuple, list[dict[int, str]]] = {}
+    for r in range(prop.rounds, 0, -1):
+        for key in sorted(k for k in needs if k[0] == r):
+            _, gi, direction = key
+            g = groups[gi]
+            left, right = space.buckets[gi]
+            s_from = g.other if direction == 0 else g.settings
+            idx = [names.index(n) for n in g.events]
+            here = space.joint[s_from]
+            found: list[dict[int, str]] = []
+            for v in sorted(needs[key]):
+                if any(all(v[idx.index(i)] == val for i, val in c.items()) for c in found):
+                    continue
+                cube = dict(zip(idx, v))
+                for i in reversed(idx):
+                    trial = {k: val for k, val in cube.items() if k != i}
+                    if all(space.var[(s_from, e)] in dead and rnd(space.var[(s_from, e)]) < r
+                           for e in here if all(e[k] == val for k, val in trial.items())):
+                        cube = trial
+                found.append(cube)
+            cubes[key] = found
+            for c in found:
+                for e in here:
+                    if all(e[k] == val for k, val in c.items()):
+                        x = space.var[(s_from, e)]
+                        need(x)
+    # the suppliers of transferred variables, for citing
+    for x, r in dead.items():
+        if r[0] == "transfer" and r[1:4] in cubes:
+            supplier.setdefault(x, r[1:4])
+
+    # number the steps: observed facts per settings tuple, then transfers by round
+    steps: list[Step] = []
+    number: dict[tuple, int] = {}
+    fact_by_s: dict[tuple, list[tuple]] = {}
+    for gi in facts_used:
+        g = groups[gi]
+        fact_by_s.setdefault(g.settings, []).append(g.outcomes)
+    for s in sorted(fact_by_s):
+        n = len(steps) + 1
+        number[("fact", s)] = n
+        st = [Statement(s, tuple(zip(space.scenario.party_names, a))) for a in sorted(fact_by_s[s])]
+        steps.append(Step(n, "observed", s, st))
+
+    def covering(s, e) -> int:
+        """The step that excludes joint assignment e at s (earliest statement that matches)."""
+        for step in steps:
+            for stt in step.statements:
+                if stt.settings == s and all(e[names.index(k)] == v for k, v in stt.cube):
+                    return step.number
+        raise AssertionError("uncovered case in a proof under construction")
+
+    assumptions = {}
+    for key in sorted(cubes):
+        _, gi, direction = key
+        g = groups[gi]
+        s_from, s_to = (g.other, g.settings) if direction == 0 else (g.settings, g.other)
+        stmts = [Statement(s_to, tuple((names[i], val) for i, val in sorted(c.items()))) for c in cubes[key]]
+        uses, cases = set(), []
+        for c in cubes[key]:
+            for e in space.joint[s_from]:
+                if all(e[k] == val for k, val in c.items()):
+                    k = covering(s_from, e)
+                    uses.add(k)
+                    cases.append((tuple(zip(names, e)), k))
+        n = len(steps) + 1
+        assumptions[g.assumption] = True
+        steps.append(Step(n, "transfer", s_to, stmts, sorted(uses), g.assumption, g.clause, "", s_from,
+                          cases=cases))
+    uses, cases = set(), []
+    for x in end_vars:
+        s, e = space.decode(x)
+        k = covering(s, e)
+        uses.add(k)
+        cases.append((tuple(zip(names, e)), k))
+    steps.append(Step(len(steps) + 1, "contradiction", end_s, [], sorted(uses), outcomes=end_a, cases=cases))
+    used_assumptions = tuple(a for a in space.assumptions if a in assumptions)
+    pat = space.pattern
+    return Proof(theory_file, space.label, names, space.scenario.party_names, steps, _read_out_notes(space),
+                 pat.title if pat else "", pat.zero_test if pat else "declared", used_assumptions,
+                 len(facts_used) + (1 if kind == "possible" else 0))
