@@ -305,8 +305,16 @@ class _Knowledge:
 
 
 def _row_only(theory: Theory, name: str) -> bool:
-    """Does the assumption only add rows (plain independence), never columns?"""
-    return all(isinstance(c, Independent) and not c.given for c in theory.assumptions[name].clauses)
+    """Does the assumption only add rows (independence on present events), never columns?
+
+    True for independence clauses that speak neither *given* a hidden
+    variable nor *of* one (setting independence of λ changes the mixture's
+    weight classes, i.e. its columns).  Removing such an assumption removes
+    its rows and nothing else, in the linear and in the mixture model.
+    """
+    hidden = {c.name for a in theory.assumptions.values() for c in a.clauses if isinstance(c, Hidden)}
+    return all(isinstance(c, Independent) and not c.given and not (set(c.events) & hidden)
+               for c in theory.assumptions[name].clauses)
 
 
 def _shrink(know: _Knowledge, seed: frozenset, theory: Theory, use_hint: bool) -> tuple[frozenset, int]:
@@ -316,7 +324,7 @@ def _shrink(know: _Knowledge, seed: frozenset, theory: Theory, use_hint: bool) -
     if use_hint:
         a = know.call(current)
         cert = a.result.certificate if a.result is not None else None
-        if cert is not None and a.result.model_kind == "linear":
+        if cert is not None:
             used = set(cert.by_assumption())
             drop = {n for n in current if _row_only(theory, n) and n not in used}
             if drop and know.implies(current - drop):
