@@ -80,6 +80,13 @@ def exact_behaviour(exp: Experiment, simplify: bool = True) -> dict[Coord, sympy
     """Exact sympy behaviour; raises ValueError when some input is not exact."""
     if not exp.is_exact:
         raise ValueError("the experiment has inputs that are not exact (numeric states or measurements)")
+    key = ("exact", simplify)
+    if key not in exp.cache:
+        exp.cache[key] = _exact_behaviour(exp, simplify)
+    return dict(exp.cache[key])
+
+
+def _exact_behaviour(exp: Experiment, simplify: bool) -> dict[Coord, sympy.Expr]:
     rho = exp.state.exact
     rows = [[m.exact for m in row] for row in exp.povms()]
     out: dict[Coord, sympy.Expr] = {}
@@ -113,6 +120,8 @@ def ball_behaviour(exp: Experiment, prec: int = PREC) -> dict[Coord, flint.arb]:
     """
     if not exp.is_exact:
         raise ValueError("the experiment has inputs that are not exact (numeric states or measurements)")
+    if ("ball", prec) in exp.cache:
+        return dict(exp.cache[("ball", prec)])
     old = flint.ctx.prec
     flint.ctx.prec = prec
     try:
@@ -131,6 +140,7 @@ def ball_behaviour(exp: Experiment, prec: int = PREC) -> dict[Coord, flint.arb]:
                     for j in range(D):
                         tr += ri[j] * K[j][i]
                 out[(s, a)] = tr.real
-        return out
+        exp.cache[("ball", prec)] = out
+        return dict(out)
     finally:
         flint.ctx.prec = old

@@ -44,6 +44,7 @@ class Experiment:
     title: str = ""
     theory_file: str | None = None
     file: str | None = None
+    cache: dict = field(default_factory=dict, repr=False, compare=False)  # derived values (exact behaviour)
 
     # -- what each party effectively does --------------------------------------
     def read_out(self, party: str, setting: str):
