@@ -19,7 +19,7 @@ import time
 from dataclasses import dataclass, field
 from typing import Any
 
-from ..theory import Theory
+from ..theory import Absolute, Counterfactual, Theory
 from .checker import check_model, check_proof
 from .encode import Group, SupportSpace, build_space
 from .proof import Proof, build_proof
@@ -66,8 +66,11 @@ class PossibilisticResult:
     def core_names(self) -> list[str]:
         return [g.name(self.parties) for g in self.core]
 
+    needed: list[str] = field(default_factory=list)
+
     def assumptions_needed(self) -> list[str]:
-        return list(dict.fromkeys(g.assumption for g in self.core if g.kind == "independent"))
+        """Assumptions the core uses: its independence clauses, and those that make their events present."""
+        return list(self.needed)
 
     def to_dict(self) -> dict[str, Any]:
         d: dict[str, Any] = {"verdict": self.verdict, "bundle": self.label, "events": list(self.events),
@@ -82,6 +85,23 @@ class PossibilisticResult:
             d["model"] = [{"settings": list(s), "possible": [dict(zip(self.events, e)) for e in es]}
                           for s, es in (self.model or {}).items()]
         return d
+
+
+def _needed(theory: Theory, space: SupportSpace, core: list[Group]) -> list[str]:
+    used_events = {e for g in core if g.kind == "independent" for e in g.events}
+    linking = {g.assumption for g in core if g.kind == "independent"}
+    out = []
+    for name in space.assumptions:
+        a = theory.assumptions[name]
+        brings = set()
+        for c in a.clauses:
+            if isinstance(c, Absolute):
+                brings.update(c.events)
+            elif isinstance(c, Counterfactual):
+                brings.update(f"{p}@{x}" for p in c.parties for x in theory.scenario.party(p).settings)
+        if name in linking or brings & used_events:
+            out.append(name)
+    return out
 
 
 def decide_pattern(theory: Theory, spec, pattern: SupportPattern, minimise: str = "smallest",
@@ -142,6 +162,7 @@ def decide_pattern(theory: Theory, spec, pattern: SupportPattern, minimise: str 
                 stats["search_iterations"] = search.iterations
                 stats["search_seconds"] = round(search.seconds, 3)
             result.core = [space.groups[g] for g in core]
+            result.needed = _needed(theory, space, result.core)
             result.first_core = [space.groups[g] for g in first]
             result.smallest_proven = proven
             result.lower_bound = lower
@@ -149,6 +170,7 @@ def decide_pattern(theory: Theory, spec, pattern: SupportPattern, minimise: str 
             for st in proof.steps:
                 if st.kind == "transfer":
                     st.says = theory.assumptions[st.assumption].says
+            proof.assumptions_used = tuple(result.needed)
             proof.smallest = {"size": len(core), "proven": proven, "lower_bound": lower}
             bad = check_proof(theory, spec, pattern, proof)
             if bad:

@@ -109,7 +109,10 @@ class SupportSpace:
             self._inverse[i - 1] = k
 
     def vars_at(self, s: tuple[str, ...]) -> list[int]:
-        return [self.var[(s, e)] for e in self.joint[s]]
+        cache = self.__dict__.setdefault("_at", {})
+        if s not in cache:
+            cache[s] = [self.var[(s, e)] for e in self.joint[s]]
+        return cache[s]
 
     def group_clauses(self, g: Group) -> list[list[int]]:
         """The clauses of one group, without its selector."""

@@ -27,7 +27,6 @@ from pysat.examples.hitman import Hitman
 from pysat.solvers import Solver
 
 from .encode import SupportSpace
-from .propagate import largest_support, propagate
 
 
 class Oracle:
@@ -46,6 +45,9 @@ class Oracle:
             for cl in space.group_clauses(g):
                 self.solver.add_clause([-sel] + cl)
                 self.n_clauses += 1
+        # prefer "possible": on dual-Horn clauses the solver then returns the
+        # largest support of the selected groups, which satisfies the most others
+        self.solver.set_phases(list(range(1, self.base + 1)))
         self.calls = 0
 
     def selector(self, g: int) -> int:
@@ -91,20 +93,28 @@ def _satisfied(space: SupportSpace, model_true: set[int], g) -> bool:
     return True
 
 
-def _grow(oracle: Oracle, space: SupportSpace, start: list[int]) -> list[int]:
-    """A maximal satisfiable superset of *start*; returns its complement (a correction set)."""
+def _grow(oracle: Oracle, space: SupportSpace, start: list[int], model: list[int]) -> list[int]:
+    """A maximal satisfiable superset of *start*; returns its complement (a correction set).
+
+    *model* satisfies the groups of *start*; every group it also satisfies
+    joins at once, the rest are tried one by one.
+    """
     sat_set = set(start)
-    prop = propagate(space, sat_set, stop_at_conflict=False)
-    true = {space.var[(s, e)] for s, es in largest_support(space, prop).items() for e in es}
-    for g in space.groups:
-        if g.index not in sat_set and _satisfied(space, true, g):
-            sat_set.add(g.index)
+
+    def absorb(m):
+        true = {lit for lit in m if 0 < lit <= oracle.base}
+        for g in space.groups:
+            if g.index not in sat_set and _satisfied(space, true, g):
+                sat_set.add(g.index)
+
+    absorb(model)
     for g in space.groups:
         if g.index in sat_set:
             continue
-        ok, _ = oracle.solve(sorted(sat_set | {g.index}))
+        ok, m = oracle.solve(sorted(sat_set | {g.index}))
         if ok:
             sat_set.add(g.index)
+            absorb(m)
     return [g.index for g in space.groups if g.index not in sat_set]
 
 
@@ -155,7 +165,7 @@ def smallest_core(oracle: Oracle, space: SupportSpace, start: list[int], time_li
                 seen += 1
                 best = minimal_core(oracle, res)
                 return CoreSearch(best, True, len(best), seen, it, time.monotonic() - t0, start)
-            mcs = _grow(oracle, space, hs)
+            mcs = _grow(oracle, space, hs, res)
             if not mcs:  # everything is satisfiable: cannot happen with a core in hand
                 break
             hitman.hit(mcs)

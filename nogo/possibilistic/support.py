@@ -275,3 +275,23 @@ def load_pattern_text(text: str, scenario: Scenario, name: str = "<text>") -> Su
 
 def all_outcomes(scenario: Scenario) -> list[tuple[str, ...]]:
     return list(itertools.product(*(p.outcomes for p in scenario.parties)))
+
+
+def support_from_experiment(experiment, tolerance: float | None = None) -> SupportPattern:
+    """The support pattern of a quantum experiment (:mod:`nogo.quantum`).
+
+    Exact inputs give an exact behaviour (sympy) and zero is decided exactly;
+    otherwise the floating-point Born rule is used and *tolerance* is
+    required (the pattern records it).  The Born rule itself lives in
+    :mod:`nogo.quantum`; nothing here recomputes it.
+    """
+    from ..quantum import behaviour, exact_behaviour  # noqa: PLC0415 - optional stage
+
+    title = experiment.title or (experiment.file or "quantum experiment")
+    if experiment.is_exact:
+        return support_from_behaviour(experiment.scenario, exact_behaviour(experiment), None, title,
+                                      experiment.file or "")
+    if tolerance is None:
+        raise InputError("the experiment has numeric (inexact) inputs, so zero cannot be decided exactly",
+                         Where(experiment.file), "give a tolerance (the report states it), or exact angles and states")
+    return support_from_behaviour(experiment.scenario, behaviour(experiment), tolerance, title, experiment.file or "")
