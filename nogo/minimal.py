@@ -134,7 +134,13 @@ def ask(theory: Theory, members: Iterable[str], background: Iterable[str], ineq:
     key = tuple(names)
     model: LinearModel | None = models.get(key) if models is not None else None
     if model is None:
-        model = compile_bundle(theory, names, **(options or {}))
+        try:
+            model = compile_bundle(theory, names, **(options or {}))
+        except InputError as exc:
+            # not an answer about this subset: the search cannot go on exactly without it
+            raise type(exc)(f"the set {{{', '.join(n for n in names if n in subset) or 'no assumption'}}} "
+                            f"cannot be compiled, so the search cannot decide it: {exc.message}",
+                            exc.where, exc.hint or "choose a pool without this combination (--pool)") from None
         if models is not None:
             models[key] = model
     if ineq.marginals:
@@ -387,8 +393,9 @@ def find_minimal_sets(theory: Theory, ineq: Inequality, pool: Iterable[str] | No
                    ``complete=False`` (a running oracle call is finished first).
     options:       passed to :func:`nogo.compile.compile_bundle`.
     models:        a dict shared between searches to re-use compiled models.
-    progress:      called as ``progress(kind, payload)`` with kind "oracle"
-                   (payload an Answer), "minimal" / "maximal" (an Answer).
+    progress:      called as ``progress(kind, payload)`` with kind "start"
+                   (payload the pool), "oracle" (an Answer), "minimal" /
+                   "maximal" (an Answer).
     use_hint:      shrink along the Farkas certificate first (verified).
 
     Returns a :class:`SearchResult`; every listed set carries its own
@@ -409,6 +416,8 @@ def find_minimal_sets(theory: Theory, ineq: Inequality, pool: Iterable[str] | No
     n = len(members)
     deadline = time.monotonic() + time_limit if time_limit else None
     know = _Knowledge(theory, background, ineq, options, {} if models is None else models, deadline, progress)
+    if progress:
+        progress("start", members)
     minimal: list[Answer] = []
     maximal: list[Answer] = []
     hints = 0

@@ -120,18 +120,19 @@ def _progress(args, theory, ineqs):
             state.update(calls=0, min=[], max=[])
             state["task"] = bar.add_task(f"{k + 1}/{len(ineqs)} {_ineq_name(ineq)[:30]}", total=1.0, info="")
             return
+        if kind == "start":
+            state["pool"] = payload
+            return
         if kind == "oracle":
             state["calls"] += 1
-            if state["pool"] is None:
-                state["pool"] = None
         elif kind == "minimal":
             state["min"].append(payload)
         elif kind == "maximal":
             state["max"].append(payload)
-        pool = tuple(sorted({p for a in state["min"] + state["max"] for p in a.subset}))
         info = f"oracle calls {state['calls']}, minimal {len(state['min'])}, maximal {len(state['max'])}"
-        frac = explored_fraction(pool, state["min"], state["max"]) if kind != "oracle" and pool else None
-        if frac is not None and kind != "oracle":
+        frac = explored_fraction(state["pool"], state["min"], state["max"]) \
+            if kind != "oracle" and state["pool"] else None
+        if frac is not None:
             bar.update(state["task"], completed=frac, info=info)
         else:
             bar.update(state["task"], info=info)
@@ -202,7 +203,8 @@ def print_search(results: list[SearchResult], theory_file: str, picture: str | N
         for a in r.minimal:
             t.add_row(_set(_ordered(r, a.subset)), _evidence(a), style=STYLE[a.status])
         if not r.minimal:
-            t.add_row("none", "not even the whole pool implies the inequality")
+            t.add_row("none", "not even the whole pool implies the inequality" if r.complete
+                      else "none found before the time limit")
         con.print(t)
         t = Table(title="maximal non-implying sets (each does not imply; adding any member does)",
                   title_justify="left")
@@ -214,10 +216,14 @@ def print_search(results: list[SearchResult], theory_file: str, picture: str | N
             t.add_row(_set(_ordered(r, a.subset)), _evidence(a),
                       _behaviour_short(r.inequality, ce.behaviour) if ce else "", style=STYLE[a.status])
         if not r.maximal:
-            t.add_row("none", "every subset implies (the background alone does)", "")
+            t.add_row("none", "every subset implies (the background alone does)" if r.complete
+                      else "none found before the time limit", "")
         con.print(t)
-        con.print(f"essential (in every minimal set): {', '.join(r.essential()) or 'none'}")
-        con.print(f"idle (in no minimal set):         {', '.join(r.idle()) or 'none'}")
+        if r.complete:
+            con.print(f"essential (in every minimal set): {', '.join(r.essential()) or 'none'}")
+            con.print(f"idle (in no minimal set):         {', '.join(r.idle()) or 'none'}")
+        else:
+            con.print("essential / idle: not known, the search is partial")
         calls = sum(results[i].oracle_calls for i in members)
         con.print(f"oracle calls: {calls} for {len(members)} inequalit{'y' if len(members) == 1 else 'ies'} "
                   f"(brute force: {len(members)} x 2^{len(r.pool)} = {len(members) * r.brute_force}); "
