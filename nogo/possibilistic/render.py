@@ -8,6 +8,8 @@ runs with those settings; "= 0" is "never occurs", "> 0" "sometimes".
 
 from __future__ import annotations
 
+import re
+
 from .proof import Proof, Step
 
 _MAX_CASES = 16
@@ -137,7 +139,8 @@ def to_latex(proof: Proof, says: dict[str, str] | None = None) -> str:
            f"Settings and outcomes are in party order $({P})$; $q(\\cdot\\mid x)$ is the joint of "
            f"${', '.join(_tex_name(e) for e in proof.events)}$ in runs with settings $x$."]
     if proof.read_outs:
-        out.append("Read-out rules: " + "; ".join(proof.read_outs).replace("_", "\\_").replace("@", "\\@") + ".")
+        rules = [re.sub(r"[A-Za-z]\w*(?:@\w+|_\w+)", lambda m: f"${_tex_name(m.group(0))}$", r) for r in proof.read_outs]
+        out.append("Read-out rules: " + "; ".join(rules) + ".")
     if proof.smallest and not proof.smallest.get("proven", True):
         out.append("(Not proven to be the shortest proof: the search stopped at its time limit.)")
     out.append("\\begin{enumerate}")
