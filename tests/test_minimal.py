@@ -10,8 +10,7 @@ from __future__ import annotations
 import itertools
 import json
 from fractions import Fraction
-
-import pytest
+from pathlib import Path
 
 from nogo.catalog import resolve_inequality
 from nogo.check import recheck
@@ -20,6 +19,7 @@ from nogo.compile import compile_bundle
 from nogo.minimal import ask, check_claim, find_for_many, find_minimal_sets, split_pool, summarise
 from nogo.symmetry import orbit
 
+FRIENDS = str(Path(__file__).resolve().parent.parent / "theories" / "friends-2x2.yaml")
 LF_POOL = ["absoluteness", "agency-A", "agency-B", "agency-inner"]
 LAM_POOL = LF_POOL + ["hidden", "lam-free", "agency-A-given-lam", "agency-B-given-lam", "outcome-indep"]
 
@@ -259,7 +259,7 @@ def test_time_limit_gives_partial_result(theory):
 # -- command line --------------------------------------------------------------
 def test_cli_json_and_picture(tmp_path, capsys):
     pic = tmp_path / "lattice.svg"
-    code = main(["minimal", "theories/friends-2x2.yaml", "CHSH", "--pool", ",".join(LF_POOL),
+    code = main(["minimal", FRIENDS, "CHSH", "--pool", ",".join(LF_POOL),
                  "--json", "--picture", str(pic)])
     assert code == 0
     d = json.loads(capsys.readouterr().out)
@@ -271,11 +271,11 @@ def test_cli_json_and_picture(tmp_path, capsys):
 
 
 def test_cli_text_claim_and_errors(capsys):
-    assert main(["minimal", "theories/friends-2x2.yaml", "CHSH", "--quiet"]) == 0
+    assert main(["minimal", FRIENDS, "CHSH", "--quiet"]) == 0
     out = capsys.readouterr().out
     assert "minimal implicating sets" in out and "oracle calls" in out
-    assert main(["minimal", "theories/friends-2x2.yaml", "CHSH",
+    assert main(["minimal", FRIENDS, "CHSH",
                  "--claim", "absoluteness,agency-A,agency-B,agency-inner"]) == 1
     assert "REFUTED" in capsys.readouterr().out
-    assert main(["minimal", "theories/friends-2x2.yaml", "CHSH", "--pool", "absolutenes"]) == 2
+    assert main(["minimal", FRIENDS, "CHSH", "--pool", "absolutenes"]) == 2
     assert "did you mean 'absoluteness'" in capsys.readouterr().err

@@ -20,7 +20,7 @@ from typing import Any
 from ..catalog import resolve_inequality
 from ..errors import InputError
 from ..minimal import Answer, ClaimResult, SearchResult, check_claim, explored_fraction, find_for_many, summarise
-from ..report import DISCLAIMER, behaviour_rows, check_to_dict, q
+from ..report import DISCLAIMER, check_to_dict, q
 from ..symmetry import orbit
 from ._common import add_output, emit_json, theory_of
 
