@@ -255,10 +255,11 @@ def _groups(theory: Theory, b: _Bundle, events: list[EventVar],
 
 
 # -- group vertices -------------------------------------------------------------
-def _cells(scenario: Scenario, events: tuple[EventVar, ...]) -> list[tuple[Settings, tuple[str, ...]]]:
+def _cells(scenario: Scenario, events: tuple[EventVar, ...],
+           only: tuple[Settings, ...] | None = None) -> list[tuple[Settings, tuple[str, ...]]]:
     ev = list(events)
     out = []
-    for s in scenario.setting_tuples():
+    for s in (only if only is not None else scenario.setting_tuples()):
         for e in itertools.product(*(x.outcomes for x in ev)):
             if read_out_ok(scenario, ev, s, e):
                 out.append((s, e))
@@ -288,17 +289,21 @@ def deterministic_count_bound(scenario: Scenario, spec: GroupSpec) -> int:
     return n
 
 
-def _deterministic_vertices(scenario: Scenario, spec: GroupSpec, cap: int) -> GroupVertices | int:
+def _deterministic_vertices(scenario: Scenario, spec: GroupSpec, cap: int,
+                            only: tuple[Settings, ...] | None = None) -> GroupVertices | int:
     """Every deterministic response of the group that obeys its constraints (or a count > cap).
 
     A deterministic response that satisfies the group's independence clauses
     has each event depend only on the settings left by those clauses (a joint
     marginal of deterministic events is setting-independent exactly when each
     event is); read-out rules are the only couplings, checked by backtracking.
+    ``only`` restricts the response to some settings tuples; it is exact only
+    when every event may depend on every setting (no cell is shared with a
+    settings tuple left out), which the caller ensures.
     """
     dep = _dependence(scenario, spec)
     events = spec.events
-    settings = scenario.setting_tuples()
+    settings = list(only) if only is not None else scenario.setting_tuples()
 
     def key(name, s):
         return tuple(s[i] for i in dep[name])
@@ -306,7 +311,7 @@ def _deterministic_vertices(scenario: Scenario, spec: GroupSpec, cap: int) -> Gr
     var_index: dict[tuple[str, tuple], int] = {}
     var_dom: list[tuple[str, ...]] = []
     for ev in events:
-        for k in itertools.product(*(scenario.parties[i].settings for i in dep[ev.name])):
+        for k in dict.fromkeys(key(ev.name, s) for s in settings):
             var_index[(ev.name, k)] = len(var_dom)
             var_dom.append(ev.outcomes)
     names = [ev.name for ev in events]
@@ -366,7 +371,7 @@ def _deterministic_vertices(scenario: Scenario, spec: GroupSpec, cap: int) -> Gr
     rec(0)
     if len(found) > cap:
         return len(found)
-    cells = _cells(scenario, events)
+    cells = _cells(scenario, events, only)
     cell_index = {c: j for j, c in enumerate(cells)}
     verts = []
     one, zero = Fraction(1), Fraction(0)
@@ -452,23 +457,35 @@ def _polytope_vertices(scenario: Scenario, spec: GroupSpec) -> GroupVertices:
 
 
 def _is_deterministic_group(spec: GroupSpec) -> bool:
+    """Are the group's extreme responses exactly its deterministic ones?
+
+    Yes when every event is predetermined; when the group has one event (its
+    polytope is a product of simplices, one per class of settings the
+    independence clauses identify); and when no clause constrains the group
+    (a product of simplices, one per settings tuple, read-out rules removing
+    cells).
+    """
     pre = {e for e, _, _ in spec.predetermined}
-    return len(spec.events) == 1 or all(ev.name in pre for ev in spec.events)
+    return (len(spec.events) == 1 or all(ev.name in pre for ev in spec.events)
+            or (not spec.constraints and not spec.predetermined))
 
 
 @lru_cache(maxsize=256)
-def group_vertices(scenario: Scenario, spec: GroupSpec, cap: int, max_cells: int) -> GroupVertices | str:
+def group_vertices(scenario: Scenario, spec: GroupSpec, cap: int, max_cells: int,
+                   only: tuple[Settings, ...] | None = None) -> GroupVertices | str:
     """Extreme responses of one group; a string explains a refusal (too many / too large).
 
     Parameters: the scenario, the group's events and per-λ clauses, ``cap`` the
-    most vertices accepted, ``max_cells`` the largest polytope (cells) sent to
-    vertex enumeration.  Returns :class:`GroupVertices` (exact rationals).
+    most vertices accepted, ``max_cells`` the largest polytope (cells) sent to vertex
+    enumeration; ``only`` (deterministic groups whose events may depend on
+    every setting) lists the settings tuples wanted.  Returns
+    :class:`GroupVertices` (exact rationals).
     Example: group [A] with A independent of B's setting in the 2x2 Bell
     scenario has the 4 deterministic responses A = f(A's setting).
     Reference: Fine, PRL 48, 291 (1982) for why these are deterministic.
     """
     if _is_deterministic_group(spec):
-        got = _deterministic_vertices(scenario, spec, cap)
+        got = _deterministic_vertices(scenario, spec, cap, only)
         if isinstance(got, int):
             return (f"{got} deterministic responses" if got > cap + 1
                     else f"more than {cap} deterministic responses")
@@ -517,11 +534,17 @@ def describe_group_response(scenario: Scenario, events: tuple[EventVar, ...], gv
                 who = ",".join(pn[i] for i in dep)
                 parts.append(f"{ev.name}: " + ", ".join(f"{v} at {who}={','.join(k)}" for k, v in vals.items()))
         return "; ".join(parts)
+    pr = (len(events) == 2 and all(len(v) == 2 and all(x == Fraction(1, 2) for _, x in v)
+                                   and all(a != b for a, b in zip(v[0][0], v[1][0])) for v in table.values()))
     rows = []
     for s in sorted(table):
         ent = ", ".join(f"({' '.join(e)}) {x}" for e, x in table[s])
         rows.append(f"at {','.join(s)}: {ent}")
-    return f"[{','.join(names)}] not deterministic: " + "; ".join(rows)
+    # a vertex with perfect (anti)correlation and uniform marginals at every
+    # setting is a relabelled PR box (Popescu & Rohrlich 1994; Barrett et al.,
+    # PRA 71, 022101 (2005) for the two-outcome extremal boxes)
+    kind = "PR box (relabelled)" if pr else "not deterministic"
+    return f"[{','.join(names)}] {kind}: " + "; ".join(rows)
 
 
 # -- the model ------------------------------------------------------------------------
@@ -579,39 +602,36 @@ def compile_mixture(theory: Theory, spec: str | list[str], max_columns: int = 20
     class_of = {s: classes.index(tuple(x for x, f in zip(s, free) if not f)) for s in settings}
     in_class: list[list[Settings]] = [[s for s in settings if class_of[s] == c] for c in range(len(classes))]
 
-    gvs: list[GroupVertices] = []
     convex = len(groups) == 1 and not b.predet and all(free)
+    full_parties = tuple(range(len(sc.parties)))
+    # pc[c][g]: the distinct responses of group g at the settings of weight class c
+    pc: list[list[GroupVertices]] = [[] for _ in classes]
+    counts: list[int] = []
     for g, gs in zip(groups, specs):
-        got = group_vertices(sc, gs, max_columns, max_response_cells)
-        if isinstance(got, str) and convex:
-            return _convex_linear(theory, label, assumptions, b, got)
-        if isinstance(got, str):
-            raise ModelTooLarge(
-                f"the mixture model for '{label}' is too large: group [{', '.join(g)}] has {got}. "
-                + _blame(sc, gs, b, grouped_by), _bundle_where(theory, assumptions),
-                "raise the limit with --max-columns (max_columns=...) if you mean it")
-        gvs.append(got)
+        per_class = _is_deterministic_group(gs) and all(d == full_parties for d in _dependence(sc, gs).values())
+        todo = [tuple(in_class[c]) for c in range(len(classes))] if per_class else [None]
+        got_all = []
+        for only in todo:
+            got = group_vertices(sc, gs, max_columns, max_response_cells, only)
+            if isinstance(got, str) and convex:
+                return _convex_linear(theory, label, assumptions, b, got)
+            if isinstance(got, str):
+                raise ModelTooLarge(
+                    f"the mixture model for '{label}' is too large: group [{', '.join(g)}] has {got}. "
+                    + _blame(sc, gs, b, grouped_by), _bundle_where(theory, assumptions),
+                    "raise the limit with --max-columns (max_columns=...) if you mean it")
+            got_all.append(got)
+        for c in range(len(classes)):
+            pc[c].append(got_all[c] if per_class else _restrict(got_all[0], set(in_class[c])))
+        counts.append(sum(len(gv.vertices) for gv in got_all))
 
-    # distinct projections of each group's vertices on each class's settings
-    proj: list[list[list[int]]] = []  # proj[c][g] = vertex indices kept
-    total = 0
-    for c in range(len(classes)):
-        sc_set = set(in_class[c])
-        per_g = []
-        for gv in gvs:
-            sel = [j for j, (s, _) in enumerate(gv.cells) if s in sc_set]
-            seen: dict[tuple, int] = {}
-            for k, v in enumerate(gv.vertices):
-                seen.setdefault(tuple(v[j] for j in sel), k)
-            per_g.append(list(seen.values()))
-        proj.append(per_g)
-        total += math.prod(len(x) for x in per_g)
+    total = sum(math.prod(len(gv.vertices) for gv in pc[c]) for c in range(len(classes)))
     if total > max_columns:
-        sizes = ", ".join(f"[{', '.join(g)}]: {len(gv.vertices)}" for g, gv in zip(groups, gvs))
+        sizes = ", ".join(f"[{', '.join(g)}]: {n}" for g, n in zip(groups, counts))
         cls = "" if len(classes) == 1 else (
-            f" times {len(classes)} weight classes, because λ may depend on the settings of "
+            f" over {len(classes)} weight classes, because λ may depend on the settings of "
             f"{', '.join(p for p, f in zip(sc.party_names, free) if not f)} (no setting independence of λ for them)")
-        worst = max(range(len(groups)), key=lambda i: len(gvs[i].vertices))
+        worst = max(range(len(groups)), key=lambda i: counts[i])
         raise ModelTooLarge(
             f"the mixture model for '{label}' would have {total} columns (limit {max_columns}): extreme responses "
             f"per group {sizes}{cls}. {_blame(sc, specs[worst], b, grouped_by)}",
@@ -621,21 +641,12 @@ def compile_mixture(theory: Theory, spec: str | list[str], max_columns: int = 20
     coords = {c: i for i, c in enumerate(sc.coordinates())}
     n_party = len(sc.parties)
     pos = [[names.index(e) for e in g] for g in groups]
-    at_s: list[dict[int, dict[Settings, list[tuple[tuple[str, ...], Fraction]]]]] = [dict() for _ in groups]
+    def entries(gv: GroupVertices, k: int, s: Settings):
+        return [(e, x) for (s2, e), x in zip(gv.cells, gv.vertices[k]) if x and s2 == s]
 
-    def entries(gi: int, k: int):
-        d = at_s[gi].get(k)
-        if d is None:
-            d = {}
-            for (s, e), x in zip(gvs[gi].cells, gvs[gi].vertices[k]):
-                if x:
-                    d.setdefault(s, []).append((e, x))
-            at_s[gi][k] = d
-        return d
-
-    def joint_at(combo: tuple[int, ...], s: Settings):
+    def joint_at(c: int, combo: tuple[int, ...], s: Settings):
         out = []
-        for parts in itertools.product(*(entries(gi, k)[s] for gi, k in enumerate(combo))):
+        for parts in itertools.product(*(entries(pc[c][gi], k, s) for gi, k in enumerate(combo))):
             e = [None] * len(names)
             w = Fraction(1)
             for gi, (eg, x) in enumerate(parts):
@@ -660,12 +671,12 @@ def compile_mixture(theory: Theory, spec: str | list[str], max_columns: int = 20
     for c in range(len(classes)):
         norm: dict[int, Fraction] = {}
         cls_set = set(in_class[c])
-        for combo in itertools.product(*proj[c]):
+        for combo in itertools.product(*(range(len(gv.vertices)) for gv in pc[c])):
             j = len(columns)
             obs: dict[int, Fraction] = {}
             marg: dict[int, dict[Settings, dict[tuple, Fraction]]] = {li: {} for li in range(len(lin))}
             for s in in_class[c]:
-                for e, w in joint_at(combo, s):
+                for e, w in joint_at(c, combo, s):
                     i = coords[(s, e[:n_party])]
                     obs[i] = obs.get(i, Fraction(0)) + w
                     for li, (_, _, idx, _, _) in enumerate(lin):
@@ -686,7 +697,7 @@ def compile_mixture(theory: Theory, spec: str | list[str], max_columns: int = 20
                 f"{p}.setting={x}" for p, x in zip([p for p, f in zip(sc.party_names, free) if not f],
                                                     classes[c])) + "]"
             desc = "; ".join(describe_group_response(sc, gs.events, gv, gv.vertices[k], cls_set)
-                             for gs, gv, k in zip(specs, gvs, combo))
+                             for gs, gv, k in zip(specs, pc[c], combo))
             columns.append(Column(None, (), (), f"{lam}-response{label_c}: {desc}"))
             observe.append(obs)
             parts_of.append((c, combo))
@@ -705,7 +716,8 @@ def compile_mixture(theory: Theory, spec: str | list[str], max_columns: int = 20
                                  f"on the mixture: q({ev} | {st(s)}) = q({ev} | {st(base_of[s])})"))
 
     notes.append(f"mixture over {lam}: groups " + " x ".join(
-        f"[{', '.join(g)}] ({len(gv.vertices)} extreme responses; {gv.method})" for g, gv in zip(groups, gvs))
+        f"[{', '.join(g)}] ({n} extreme responses{'' if len(classes) == 1 else ' over all weight classes'}; "
+        f"{pc[0][gi].method})" for gi, (g, n) in enumerate(zip(groups, counts)))
         + (f", factorised by {grouped_by}" if grouped_by else ", one group (no factorisation declared)"))
     if len(classes) == 1:
         notes.append(f"{lam} is independent of every setting ({', '.join(dict.fromkeys(b.free_by))}): "
@@ -718,11 +730,18 @@ def compile_mixture(theory: Theory, spec: str | list[str], max_columns: int = 20
         if o.name in names and o.read_out_at is not None:
             notes.append(f"read-out (in every response): {o.lab}'s outcome equals {o.name}'s when {o.lab}'s "
                          f"setting is {o.read_out_at}")
-    extra = {"hidden": lam, "events": tuple(names), "groups": tuple(groups), "group_vertices": tuple(gvs),
+    extra = {"hidden": lam, "events": tuple(names), "groups": tuple(groups), "group_vertices": tuple(tuple(x) for x in pc),
              "classes": tuple(classes), "free_of": tuple(p for p, f in zip(sc.party_names, free) if f),
              "column_parts": parts_of}
     return LinearModel(sc, label, tuple(a.name for a in assumptions), columns, rows, rhs, sources, observe,
                        notes, kind="mixture", extra=extra)
+
+
+def _restrict(gv: GroupVertices, keep: set[Settings]) -> GroupVertices:
+    """The distinct responses of a group at the settings tuples *keep* only."""
+    sel = [j for j, (s, _) in enumerate(gv.cells) if s in keep]
+    seen = dict.fromkeys(tuple(v[j] for j in sel) for v in gv.vertices)
+    return GroupVertices(tuple(gv.cells[j] for j in sel), tuple(seen), gv.method)
 
 
 def _linear_rows_setup(sc: Scenario, b: _Bundle, names, events, notes):
@@ -753,13 +772,17 @@ def _blame(sc: Scenario, spec: GroupSpec, b: _Bundle, grouped_by: str) -> str:
     if _is_deterministic_group(spec):
         dep = _dependence(sc, spec)
         parts = []
+        foreign = False
         for ev in spec.events:
             who = [sc.party_names[i] for i in dep[ev.name]]
+            foreign |= any(p != ev.party for p in who)
             pre = next((a for e, _, a in spec.predetermined if e == ev.name), None)
             why = f" (predetermined by '{pre}')" if pre else ""
-            parts.append(f"{ev.name} may depend on the settings of {', '.join(who) or 'no party'}{why}")
-        return ("Its responses are deterministic and " + "; ".join(parts)
-                + "; parameter independence given λ would cut this down")
+            n = len(ev.outcomes) ** math.prod(len(sc.party(p).settings) for p in who)
+            parts.append(f"{ev.name} is one of {n} functions of the settings of {', '.join(who) or 'no party'}{why}")
+        tail = ("; parameter independence given λ (each outcome free of the other parties' settings) would cut "
+                "this down") if foreign else "; the size is that of the scenario itself"
+        return "Its responses are deterministic: " + "; ".join(parts) + tail
     if not grouped_by:
         return ("No factorisation is declared, so all present events form one group; outcome independence "
                 "(factorise given λ) or predetermination splits it")
@@ -832,7 +855,7 @@ def mixture_joint(model: LinearModel, point: list[Fraction]) -> dict[tuple[Setti
                 continue
             per_g = []
             for gi, k in enumerate(combo):
-                gv = ex["group_vertices"][gi]
+                gv = ex["group_vertices"][c][gi]
                 per_g.append([(e, w) for (s2, e), w in zip(gv.cells, gv.vertices[k]) if s2 == s and w])
             for parts in itertools.product(*per_g):
                 e = [None] * len(names)
