@@ -616,10 +616,12 @@ def compile_mixture(theory: Theory, spec: str | list[str], max_columns: int = 20
             if isinstance(got, str) and convex:
                 return _convex_linear(theory, label, assumptions, b, got)
             if isinstance(got, str):
+                hint = ("the cell limit is the max_response_cells option of compile_mixture; exact vertex "
+                        "enumeration of a larger polytope may not finish" if "max_response_cells" in got
+                        else "raise the limit with --max-columns (max_columns=...) if you mean it")
                 raise ModelTooLarge(
                     f"the mixture model for '{label}' is too large: group [{', '.join(g)}] has {got}. "
-                    + _blame(sc, gs, b, grouped_by), _bundle_where(theory, assumptions),
-                    "raise the limit with --max-columns (max_columns=...) if you mean it")
+                    + _blame(sc, gs, b, grouped_by), _bundle_where(theory, assumptions), hint)
             got_all.append(got)
         for c in range(len(classes)):
             pc[c].append(got_all[c] if per_class else _restrict(got_all[0], set(in_class[c])))
