@@ -117,3 +117,38 @@ def orbit(ineq: Inequality, gens: list[Generator] | None = None, limit: int = 10
     if ineq.name:
         out[0] = Inequality(sc, ineq.coeffs, ineq.bound, f"{ineq.name} #1", ineq.text, ineq.source, out[0].marginals)
     return out
+
+
+# -- the group of a bundle, acting on coordinates ----------------------------
+def pinned_for(theory, spec) -> list[tuple[str, str]]:
+    """Read-out settings that a bundle makes special: (party, setting) pairs.
+
+    When an assumption of the bundle declares an inner observer absolute, its
+    read-out setting is where the party's outcome is tied to the observer's,
+    so that setting cannot be exchanged with the others.  Inner observers the
+    bundle does not bring in leave every setting free.
+    """
+    from .theory import Absolute
+
+    _, assumptions = theory.resolve(spec)
+    absolute = {e for a in assumptions for c in a.clauses if isinstance(c, Absolute) for e in c.events}
+    out = []
+    for o in theory.scenario.inner:
+        if o.name in absolute and o.read_out_at is not None:
+            out.append((o.lab, o.read_out_at))
+    return out
+
+
+def bundle_generators(theory, spec) -> list[Generator]:
+    """Generators of the relabelling group a bundle's set may have (to be verified by the caller)."""
+    return generators(theory.scenario, pinned_for(theory, spec))
+
+
+def permutation(scenario: Scenario, move: Move) -> list[int]:
+    """The move as a permutation of ``scenario.coordinates()``: coordinate i goes to perm[i]."""
+    coords = scenario.coordinates()
+    index = {c: i for i, c in enumerate(coords)}
+    perm = [index[move(c)] for c in coords]
+    if sorted(perm) != list(range(len(coords))):
+        raise ValueError("a relabelling move is not a permutation of the coordinates")
+    return perm
