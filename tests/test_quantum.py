@@ -133,3 +133,145 @@ def test_bad_measurements_are_clear_input_errors(theory):
     with pytest.raises(InputError, match="reads out inner observer A_in"):
         load_experiment_text("state: singlet\nmeasurements: {A: {1: Z, 2: X, 3: X}, B: {2: X, 3: Z}}\n"
                              "inner_observers: {A_in: Z, B_in: Z}\n", th2)
+
+
+# -- noise thresholds -------------------------------------------------------------
+def test_critical_visibility_of_singlet_is_one_over_sqrt2(theory):
+    # Standard result (from memory): the singlet with CHSH-optimal settings leaves the
+    # Bell-local set below visibility 1/sqrt(2) against white noise.
+    from nogo.check import recheck
+    from nogo.compile import compile_bundle
+    from nogo.quantum.visibility import robustness
+
+    th = theory("bell-2x2")
+    exp = load_experiment_text("state: singlet\nmeasurements:\n  A: {1: Z, 2: X}\n"
+                               "  B: {1: {bloch: [5*pi/4]}, 2: {bloch: [3*pi/4]}}\n", th)
+    model = compile_bundle(th, "Bell-local")
+    r = robustness(model, exp)
+    assert r.inside is False
+    assert r.visibility == pytest.approx(1 / np.sqrt(2), abs=1e-8)
+    sep = r.separation
+    assert sep.check.implied and recheck(model, sep.check) is None  # valid for Bell-local, exact Farkas
+    # certified: above 1/sqrt(2) the mixture violates the certified inequality
+    assert sep.visibility_bound.upper() < 1 / np.sqrt(2) + 1e-9
+    assert sep.visibility_bound.lower() > 1 / np.sqrt(2) - 1e-12
+    # inside the no-signalling set (Popescu & Rohrlich 1994: quantum behaviours do not signal)
+    assert robustness(compile_bundle(th, "no-signalling"), exp).inside is True
+
+
+def test_sweep_and_plot(tmp_path, theory):
+    from nogo.compile import compile_bundle
+    from nogo.quantum.visibility import plot_sweep, sweep
+
+    th = theory("bell-2x2")
+    exp = load_experiment(EXAMPLES / "larch-birch-chsh.yaml")
+    chsh = resolve_inequality(th.scenario, "CHSH")
+    data = sweep(compile_bundle(th, "Bell-local"), exp, [chsh], steps=11)
+    # membership flips once, between 0.7 and 0.8 (1/sqrt(2) ~ 0.7071)
+    assert data["inside"][:8] == [True] * 8 and data["inside"][8:] == [False] * 3
+    out = tmp_path / "sweep.png"
+    plot_sweep(data, str(out), critical=0.7071)
+    assert out.stat().st_size > 1000
+
+
+# -- NPA ----------------------------------------------------------------------------
+def test_npa_level1_chsh_is_tsirelson(theory):
+    # Navascués, Pironio, Acín, PRL 98, 010401 (2007): level 1 already gives 2*sqrt(2) for CHSH.
+    from nogo.quantum.npa import npa_bound
+
+    chsh = resolve_inequality(theory("bell-2x2").scenario, "CHSH")
+    b = npa_bound(chsh, "1")
+    assert b.value == pytest.approx(2 * np.sqrt(2), abs=1e-6)
+    # the certified bound is rigorous, so it cannot lie below the attained 2*sqrt(2)
+    assert 2 * sympy.sqrt(2) <= sympy.Rational(b.certified.numerator, b.certified.denominator) < 2 * np.sqrt(2) + 1e-6
+
+
+@pytest.mark.parametrize("level, value", [("1", 0.375), ("1+AB", 0.2515), ("2", 0.2509)])
+def test_npa_i3322_levels(theory, level, value):
+    # I3322 (Collins & Gisin, J. Phys. A 37, 1775 (2004)); level values computed independently
+    # with cvxpy and two conic solvers (agreeing to 1e-6); higher levels approach ~0.250875 (from memory).
+    from nogo.quantum.npa import npa_bound
+
+    i3322 = resolve_inequality(theory("bell-2x3").scenario, "I3322")
+    b = npa_bound(i3322, level)
+    assert b.value == pytest.approx(value, abs=2e-4)
+    assert b.value - 1e-6 <= float(b.certified) <= b.value + 1e-5
+    assert float(b.certified) >= 0.25  # a valid bound stays above the qubit value 1/4
+
+
+def test_npa_mermin_needs_three_party_moments(theory):
+    # Mermin, PRL 65, 1838 (1990): quantum maximum 4 (GHZ); level 1 lacks <ABC>.
+    from nogo.quantum.npa import npa_bound
+
+    mermin = resolve_inequality(theory("bell-3x2").scenario, "Mermin")
+    with pytest.raises(InputError, match="higher level"):
+        npa_bound(mermin, "1")
+    assert npa_bound(mermin, "1+AB").value == pytest.approx(4, abs=1e-5)
+
+
+# -- optimisation ---------------------------------------------------------------------
+def test_i3322_qubit_optimum_is_one_quarter(theory):
+    # Collins & Gisin, J. Phys. A 37, 1775 (2004): two qubits reach I3322 = 1/4.
+    from nogo.quantum.certify import evaluate
+    from nogo.quantum.npa import npa_bound
+    from nogo.quantum.optimise import optimise
+
+    th = theory("bell-2x3")
+    exp = load_experiment_text("state: singlet\nmeasurements: {A: {1: Z, 2: X, 3: Y}, B: {1: Z, 2: X, 3: Y}}\n", th)
+    i3322 = resolve_inequality(th.scenario, "I3322")
+    opt = optimise(exp, i3322, starts=4, seed=2, over_state=True)
+    assert opt.value == pytest.approx(0.25, abs=1e-6)
+    v, = evaluate(opt.experiment, [i3322])
+    assert v.verdict == "violated"  # certified by interval arithmetic, not by the float
+    again = optimise(exp, i3322, starts=4, seed=2, over_state=True)
+    assert again.value == opt.value  # reproducible with a seed
+    gap = npa_bound(i3322, "2").value - opt.value
+    assert 0 < gap < 1e-3
+
+
+def test_hardy_paradox_maximum(theory):
+    # Hardy, PRL 71, 1665 (1993): the largest probability of the paradoxical event is
+    # (5*sqrt(5) - 11)/2 ~ 0.0902, found here over two-qubit states and settings with the
+    # three Hardy zeros imposed.
+    from nogo.inequality import parse_inequality
+    from nogo.quantum.optimise import optimise
+
+    th = theory("bell-2x2")
+    exp = load_experiment_text("state: singlet\nmeasurements: {A: {1: Z, 2: X}, B: {1: Z, 2: X}}\n", th)
+    event = parse_inequality(th.scenario, "p(+1 +1|1 1) <= 0")
+    zeros = [(("1", "2"), ("+1", "-1")), (("2", "1"), ("-1", "+1")), (("2", "2"), ("+1", "+1"))]
+    opt = optimise(exp, event, starts=6, seed=3, over_state=True, zeros=zeros)
+    assert opt.value == pytest.approx((5 * np.sqrt(5) - 11) / 2, abs=1e-6)
+    p = behaviour(opt.experiment)
+    assert max(p[z] for z in zeros) < 1e-9
+
+
+# -- local friendliness ----------------------------------------------------------------
+def test_genuine_local_friendliness_facet_is_violated(theory):
+    # K.-W. Bong et al., Nature Physics 16, 1199 (2020), arXiv:1907.05607: quantum theory
+    # violates local-friendliness inequalities that are not Bell inequalities.  One facet of
+    # the LF polytope (derived exactly by nogo.polytope) that is no facet of the Bell-local
+    # polytope is picked (the first in canonical order); the optimiser is aimed at it alone.
+    from nogo.compile import compile_bundle
+    from nogo.polytope import derive_polytope
+    from nogo.quantum.certify import evaluate
+    from nogo.quantum.optimise import optimise
+    from nogo.quantum.visibility import robustness
+
+    th = theory("friends-2x3")
+    lf = derive_polytope(compile_bundle(th, "local-friendliness"))
+    bell = derive_polytope(compile_bundle(th, "Bell-local"))
+    assert lf.status == bell.status == "complete"
+    bell_facets = {bell.inequality(f).canonical() for f in bell.facets}
+    genuine = sorted((lf.inequality(f, "LF facet") for f in lf.facets if f.verified),
+                     key=lambda q: q.canonical())
+    genuine = [q for q in genuine if q.canonical() not in bell_facets]
+    assert genuine
+    target = genuine[0]
+    exp = load_experiment_text("state: singlet\nmeasurements: {A: {2: X, 3: Y}, B: {2: X, 3: Y}}\n"
+                               "inner_observers: {A_in: Z, B_in: Z}\n", th)
+    opt = optimise(exp, target, starts=4, seed=1, over_state=True)
+    v, = evaluate(opt.experiment, [target])
+    assert v.verdict == "violated" and v.excess > 0.1
+    r = robustness(compile_bundle(th, "local-friendliness"), opt.experiment)
+    assert r.inside is False and r.separation is not None and r.separation.margin > 0
