@@ -69,6 +69,16 @@ K. Fukuda and A. Prodon, "Double description method revisited", LNCS 1120
 (1996)).  The size of the model is computed before any column is built and
 refused above ``max_columns`` with the assumption that makes it big.
 
+Two shortcuts give the same set with less work, and say so in the notes:
+a bundle with no clause given λ compiles to the plain linear model (λ adds
+nothing: the joint itself is a one-valued mixture); and one group without
+predetermination, with λ setting-independent, is a convex set of responses,
+so when its vertices are too many to list the per-λ clauses are put on the
+joint instead (same set, linear model).  When λ may depend on some settings
+the columns are the responses that differ at the settings of each weight
+class (identical ones are merged; for groups whose events may depend on
+every setting the responses are listed per class directly).
+
 What this route cannot do: a factorisation that leaves present events in no
 group (the product form then holds only for a marginal, which is neither a
 product nor convex); two hidden variables; setting independence given λ of
@@ -501,10 +511,6 @@ def group_vertices(scenario: Scenario, spec: GroupSpec, cap: int, max_cells: int
 
 
 # -- describing a response ---------------------------------------------------------
-def _fmt_settings(parties: list[str], s: tuple) -> str:
-    return ",".join(s) if len(s) > 1 else s[0]
-
-
 def describe_group_response(scenario: Scenario, events: tuple[EventVar, ...], gv: GroupVertices,
                             vertex: tuple[Fraction, ...], only: set[Settings] | None = None) -> str:
     """A group's response in the user's names, e.g. ``A: +1 at 1, -1 at 2``."""
@@ -549,14 +555,15 @@ def describe_group_response(scenario: Scenario, events: tuple[EventVar, ...], gv
 
 # -- the model ------------------------------------------------------------------------
 def compile_mixture(theory: Theory, spec: str | list[str], max_columns: int = 200_000,
-                    max_response_cells: int = 64, **_) -> LinearModel:
+                    max_response_cells: int = 64, progress=None, **_) -> LinearModel:
     """Compile a bundle with a hidden variable into a mixture :class:`LinearModel`.
 
     Parameters: ``theory`` and ``spec`` (bundle name or assumption names) as
     for :func:`nogo.compile.compile_bundle`; ``max_columns`` the largest model
     built (columns = mixture weights); ``max_response_cells`` the largest
     group response polytope (number of cells r_g(e_g|s)) sent to exact vertex
-    enumeration.  Returns a model of kind ``"mixture"`` whose columns are
+    enumeration; ``progress`` an optional callback ``(stage, done, total)``
+    called while columns are built.  Returns a model of kind ``"mixture"`` whose columns are
     weights of extreme responses (see the module docstring); ``extra`` holds
     the group vertices so :func:`mixture_joint` can rebuild the full joint.
 
@@ -643,12 +650,21 @@ def compile_mixture(theory: Theory, spec: str | list[str], max_columns: int = 20
     coords = {c: i for i, c in enumerate(sc.coordinates())}
     n_party = len(sc.parties)
     pos = [[names.index(e) for e in g] for g in groups]
-    def entries(gv: GroupVertices, k: int, s: Settings):
-        return [(e, x) for (s2, e), x in zip(gv.cells, gv.vertices[k]) if x and s2 == s]
+    by_s: dict[tuple[int, int, int], dict[Settings, list]] = {}
+
+    def entries(c: int, gi: int, k: int, s: Settings):
+        d = by_s.get((c, gi, k))
+        if d is None:
+            gv = pc[c][gi]
+            d = by_s[(c, gi, k)] = {}
+            for (s2, e), x in zip(gv.cells, gv.vertices[k]):
+                if x:
+                    d.setdefault(s2, []).append((e, x))
+        return d.get(s, [])
 
     def joint_at(c: int, combo: tuple[int, ...], s: Settings):
         out = []
-        for parts in itertools.product(*(entries(pc[c][gi], k, s) for gi, k in enumerate(combo))):
+        for parts in itertools.product(*(entries(c, gi, k, s) for gi, k in enumerate(combo))):
             e = [None] * len(names)
             w = Fraction(1)
             for gi, (eg, x) in enumerate(parts):
@@ -704,6 +720,8 @@ def compile_mixture(theory: Theory, spec: str | list[str], max_columns: int = 20
             observe.append(obs)
             parts_of.append((c, combo))
             norm[j] = Fraction(1)
+            if progress and j % 5000 == 0:
+                progress("mixture columns", j, total)
         rows.append(norm)
         rhs.append(Fraction(1))
         what = "" if len(classes) == 1 else " at " + ", ".join(
@@ -718,8 +736,7 @@ def compile_mixture(theory: Theory, spec: str | list[str], max_columns: int = 20
                                  f"on the mixture: q({ev} | {st(s)}) = q({ev} | {st(base_of[s])})"))
 
     notes.append(f"mixture over {lam}: groups " + " x ".join(
-        f"[{', '.join(g)}] ({n} extreme responses{'' if len(classes) == 1 else ' over all weight classes'}; "
-        f"{pc[0][gi].method})" for gi, (g, n) in enumerate(zip(groups, counts)))
+        f"[{', '.join(g)}] ({n} extreme responses; {pc[0][gi].method})" for gi, (g, n) in enumerate(zip(groups, counts)))
         + (f", factorised by {grouped_by}" if grouped_by else ", one group (no factorisation declared)"))
     if len(classes) == 1:
         notes.append(f"{lam} is independent of every setting ({', '.join(dict.fromkeys(b.free_by))}): "
@@ -727,7 +744,7 @@ def compile_mixture(theory: Theory, spec: str | list[str], max_columns: int = 20
     else:
         dep = [p for p, f in zip(sc.party_names, free) if not f]
         notes.append(f"{lam} may depend on the settings of {', '.join(dep)}: one set of weights per value of them "
-                     f"({len(classes)})")
+                     f"({len(classes)}), over the responses that differ at those settings ({len(columns)} columns)")
     for o in sc.inner:
         if o.name in names and o.read_out_at is not None:
             notes.append(f"read-out (in every response): {o.lab}'s outcome equals {o.name}'s when {o.lab}'s "
