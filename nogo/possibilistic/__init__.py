@@ -155,7 +155,7 @@ def decide_pattern(theory: Theory, spec, pattern: SupportPattern, minimise: str 
             first = res
             if minimise in ("minimal", "smallest"):
                 first = minimal_core(oracle, res)
-            core, proven, lower = first, minimise == "minimal" and False, 0
+            core, proven, lower = first, False, 0
             if minimise == "smallest":
                 search = smallest_core(oracle, space, first, time_limit)
                 core, proven, lower = search.smallest, search.proven, search.lower_bound
@@ -171,7 +171,8 @@ def decide_pattern(theory: Theory, spec, pattern: SupportPattern, minimise: str 
                 if st.kind == "transfer":
                     st.says = theory.assumptions[st.assumption].says
             proof.assumptions_used = tuple(result.needed)
-            proof.smallest = {"size": len(core), "proven": proven, "lower_bound": lower}
+            proof.smallest = {"size": len(core), "proven": proven, "lower_bound": lower,
+                              "searched": minimise == "smallest"}
             bad = check_proof(theory, spec, pattern, proof)
             if bad:
                 raise RuntimeError(f"the proof failed its independent check: {bad[0]}")

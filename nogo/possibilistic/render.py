@@ -88,9 +88,12 @@ def to_markdown(proof: Proof, says: dict[str, str] | None = None) -> str:
         sm = proof.smallest
         if sm.get("proven"):
             out.append(f"This proof uses {sm['size']} facts and assumption instances, the fewest possible.")
-        else:
+        elif sm.get("searched", True):
             out.append(f"This proof uses {sm['size']} facts and assumption instances; NOT proven smallest "
                        f"(search stopped at the time limit; lower bound {sm.get('lower_bound')}).")
+        else:
+            out.append(f"This proof uses {sm['size']} facts and assumption instances, a minimal set "
+                       f"(no smaller proof was searched for).")
     out.append("")
     party_set = set(proof.parties)
     for st in proof.steps:
