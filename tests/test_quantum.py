@@ -275,3 +275,16 @@ def test_genuine_local_friendliness_facet_is_violated(theory):
     assert v.verdict == "violated" and v.excess > 0.1
     r = robustness(compile_bundle(th, "local-friendliness"), opt.experiment)
     assert r.inside is False and r.separation is not None and r.separation.margin > 0
+
+
+def test_quantum_command(capsys):
+    # End to end: CHSH violated (certified) and Bell-local left with a certified separating inequality.
+    from nogo.cli import main
+
+    rc = main(["quantum", str(EXAMPLES / "larch-birch-chsh.yaml"), "-i", "CHSH", "-b", "Bell-local"])
+    out = capsys.readouterr().out
+    assert rc == 0
+    assert "CHSH" in out and "VIOLATED" in out and "2*sqrt(2)" in out
+    assert "OUTSIDE" in out and "Farkas" in out
+    rc = main(["quantum", str(EXAMPLES / "larch-birch-chsh.yaml"), "-b", "Bell-locale"])
+    assert rc == 2 and "did you mean" in capsys.readouterr().err

@@ -64,7 +64,7 @@ def bloch(theta, phi=0, label: str | None = None) -> Measurement:
 
 def bloch_float(theta: float, phi: float = 0.0) -> Measurement:
     """From optimiser floats, taken as the exact binary rationals they are."""
-    return bloch(exact_from_float(theta), exact_from_float(phi), f"bloch({theta:.12g}, {phi:.12g})")
+    return bloch(exact_from_float(theta), exact_from_float(phi), f"bloch({float(theta)!r}, {float(phi)!r})")
 
 
 PAULI = {
