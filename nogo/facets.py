@@ -544,7 +544,8 @@ def _outside(A: FacetResult, B: FacetResult) -> tuple[list[Witness], dict[int, i
                 first_break.setdefault(j, i)
     for j, i in sorted(first_break.items()):
         f = B.facets[i]
-        wits.append(Witness(j, A.vertices[j], f.text, i, Fraction(int(vals[i][j]), den), Fraction(f.b)))
+        wits.append(Witness(j, A.vertices[j], B.frame.text(f.a, f.b, flip=False), i,
+                            Fraction(int(vals[i][j]), den), Fraction(f.b)))
     # a vertex on B's affine hull but violating B's facet: the value in B's frame is only meaningful there
     return wits, violated
 
