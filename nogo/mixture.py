@@ -555,7 +555,7 @@ def describe_group_response(scenario: Scenario, events: tuple[EventVar, ...], gv
 
 # -- the model ------------------------------------------------------------------------
 def compile_mixture(theory: Theory, spec: str | list[str], max_columns: int = 200_000,
-                    max_response_cells: int = 64, progress=None, **_) -> LinearModel:
+                    max_response_cells: int = 40, progress=None, **_) -> LinearModel:
     """Compile a bundle with a hidden variable into a mixture :class:`LinearModel`.
 
     Parameters: ``theory`` and ``spec`` (bundle name or assumption names) as
