@@ -394,76 +394,86 @@ def _deterministic_vertices(scenario: Scenario, spec: GroupSpec, cap: int,
     return GroupVertices(tuple(cells), tuple(verts), "deterministic responses listed directly")
 
 
-def _polytope_vertices(scenario: Scenario, spec: GroupSpec) -> GroupVertices:
-    """Vertices of the group's response polytope by exact double description (pycddlib)."""
+def _polytope_vertices(scenario: Scenario, spec: GroupSpec, max_cells: int) -> GroupVertices | str:
+    """Vertices of the group's response polytope by exact double description (pycddlib).
+
+    Predetermined events are fixed first: a response in which they are
+    deterministic lies on the face where every cell that disagrees with their
+    values is zero, and the vertices of a face are vertices of the polytope.
+    So each deterministic assignment of the predetermined events (as functions
+    of the settings they may depend on) is enumerated directly, and cddlib
+    only sees the much smaller face.  Returns a string when a face has more
+    than ``max_cells`` cells (exact enumeration might not finish).
+    """
     import cdd
 
     events = list(spec.events)
     names = [ev.name for ev in events]
     cells = _cells(scenario, spec.events)
-    n = len(cells)
     settings = scenario.setting_tuples()
-    by_s: dict[Settings, list[int]] = {}
-    for j, (s, _) in enumerate(cells):
-        by_s.setdefault(s, []).append(j)
-    eq: list[list[Fraction]] = []
-    for s in settings:
-        row = [Fraction(0)] * n
-        for j in by_s[s]:
-            row[j] = Fraction(1)
-        eq.append([Fraction(1)] + [-v for v in row])
     constraints = list(spec.constraints)
     for e, allowed, a in spec.predetermined:
         others = tuple(p for p in scenario.party_names if p not in allowed)
         if others:
             constraints.append(GroupConstraint(a, 0, (e,), others))
-    for c in constraints:
-        idx = [names.index(e) for e in c.events]
-        moved = {scenario.party_index(p) for p in c.of}
-        for s in settings:
-            base = tuple(scenario.parties[i].settings[0] if i in moved else s[i] for i in range(len(s)))
-            if base == s:
-                continue
-            for v in itertools.product(*(events[i].outcomes for i in idx)):
-                row = [Fraction(0)] * n
-                for j in by_s[s]:
-                    if tuple(cells[j][1][i] for i in idx) == v:
-                        row[j] += 1
-                for j in by_s[base]:
-                    if tuple(cells[j][1][i] for i in idx) == v:
-                        row[j] -= 1
-                if any(row):
-                    eq.append([Fraction(0)] + [-x for x in row])
-    ineq = [[Fraction(0)] + [Fraction(int(k == j)) for k in range(n)] for j in range(n)]
-    mat = cdd.Matrix(eq + ineq, number_type="fraction")
-    mat.rep_type = cdd.RepType.INEQUALITY
-    mat.lin_set = frozenset(range(len(eq)))
-    gens = cdd.Polyhedron(mat).get_generators()
-    verts = []
-    for i in range(gens.row_size):
-        row = gens[i]
-        if Fraction(row[0]) != 1:  # a polytope has no rays or lines; a 0 here is a solver surprise
-            raise RuntimeError("response polytope is unbounded: this should not happen")
-        verts.append(tuple(Fraction(x) for x in row[1:]))
+    dep = _dependence(scenario, spec)
     pre = [e for e, _, _ in spec.predetermined]
-    if pre:
-        keep = []
-        for v in verts:
-            ok = True
-            for e in pre:
-                i = names.index(e)
-                for s in settings:
-                    for val in events[i].outcomes:
-                        m = sum((v[j] for j in by_s[s] if cells[j][1][i] == val), Fraction(0))
-                        if m not in (0, 1):
-                            ok = False
-                if not ok:
-                    break
-            if ok:
-                keep.append(v)
-        verts = keep
-    verts = sorted(set(verts))
-    return GroupVertices(tuple(cells), tuple(verts), "exact vertex enumeration (pycddlib, rational)")
+    slots = [(e, k) for e in pre for k in dict.fromkeys(tuple(s[i] for i in dep[e]) for s in settings)]
+    domains = [events[names.index(e)].outcomes for e, _ in slots]
+    if math.prod(len(d) for d in domains) > 4096:
+        return f"{math.prod(len(d) for d in domains)} assignments of its predetermined events"
+    verts: set[tuple[Fraction, ...]] = set()
+    for values in itertools.product(*domains):
+        fixed = dict(zip(slots, values))
+        keep = [j for j, (s, e) in enumerate(cells)
+                if all(e[names.index(pe)] == fixed[(pe, tuple(s[i] for i in dep[pe]))] for pe in pre)]
+        if len(keep) > max_cells:
+            return (f"a response polytope of {len(keep)} cells, above the vertex-enumeration limit of "
+                    f"{max_cells} (max_response_cells)")
+        sub = [cells[j] for j in keep]
+        by_s: dict[Settings, list[int]] = {}
+        for j, (s, _) in enumerate(sub):
+            by_s.setdefault(s, []).append(j)
+        if len(by_s) < len(settings):
+            continue  # these values break a read-out rule at some settings: an empty face
+        n = len(sub)
+        eq: list[list[Fraction]] = []
+        for s in settings:
+            row = [Fraction(0)] * n
+            for j in by_s[s]:
+                row[j] = Fraction(1)
+            eq.append([Fraction(1)] + [-v for v in row])
+        for c in constraints:
+            idx = [names.index(e) for e in c.events]
+            moved = {scenario.party_index(p) for p in c.of}
+            for s in settings:
+                base = tuple(scenario.parties[i].settings[0] if i in moved else s[i] for i in range(len(s)))
+                if base == s:
+                    continue
+                for v in itertools.product(*(events[i].outcomes for i in idx)):
+                    row = [Fraction(0)] * n
+                    for j in by_s[s]:
+                        if tuple(sub[j][1][i] for i in idx) == v:
+                            row[j] += 1
+                    for j in by_s[base]:
+                        if tuple(sub[j][1][i] for i in idx) == v:
+                            row[j] -= 1
+                    if any(row):
+                        eq.append([Fraction(0)] + [-x for x in row])
+        ineq = [[Fraction(0)] + [Fraction(int(k == j)) for k in range(n)] for j in range(n)]
+        mat = cdd.Matrix(eq + ineq, number_type="fraction")
+        mat.rep_type = cdd.RepType.INEQUALITY
+        mat.lin_set = frozenset(range(len(eq)))
+        gens = cdd.Polyhedron(mat).get_generators()
+        for i in range(gens.row_size):
+            row = gens[i]
+            if Fraction(row[0]) != 1:  # a polytope has no rays or lines; a 0 here is a solver surprise
+                raise RuntimeError("response polytope is unbounded: this should not happen")
+            full = [Fraction(0)] * len(cells)
+            for j, x in zip(keep, row[1:]):
+                full[j] = Fraction(x)
+            verts.add(tuple(full))
+    return GroupVertices(tuple(cells), tuple(sorted(verts)), "exact vertex enumeration (pycddlib, rational)")
 
 
 def _is_deterministic_group(spec: GroupSpec) -> bool:
@@ -500,11 +510,9 @@ def group_vertices(scenario: Scenario, spec: GroupSpec, cap: int, max_cells: int
             return (f"{got} deterministic responses" if got > cap + 1
                     else f"more than {cap} deterministic responses")
         return got
-    n = len(_cells(scenario, spec.events))
-    if n > max_cells:
-        return (f"a response polytope of {n} cells, above the vertex-enumeration limit of {max_cells} "
-                "(max_response_cells)")
-    got = _polytope_vertices(scenario, spec)
+    got = _polytope_vertices(scenario, spec, max_cells)
+    if isinstance(got, str):
+        return got
     if len(got.vertices) > cap:
         return f"{len(got.vertices)} extreme responses, more than {cap}"
     return got
