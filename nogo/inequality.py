@@ -181,7 +181,7 @@ class _Parser:
         self.fail("expected a probability p(..|..), a correlator <..> or a number")
 
     def party_item(self, item: str) -> tuple[str, str]:
-        """'A1', 'A_1', 'Alice2' -> (party, setting)."""
+        """'A1', 'A_1', 'Oak2' -> (party, setting)."""
         for name in sorted(self.sc.party_names, key=len, reverse=True):
             if item.startswith(name):
                 setting = item[len(name):].lstrip("_")
