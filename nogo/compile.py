@@ -25,6 +25,7 @@ mixture model.
 from __future__ import annotations
 
 import itertools
+from dataclasses import dataclass
 from fractions import Fraction
 
 from .errors import InputError, Where
@@ -72,6 +73,42 @@ def read_out_ok(scenario: Scenario, events: list[EventVar], s: tuple[str, ...], 
             if s[pi] == ev.setting and e[pos[ev.party]] != e[pos[ev.name]]:
                 return False
     return True
+
+
+@dataclass(frozen=True)
+class Projected:
+    """An independence clause after the rule of projection.
+
+    ``kept``: its present events (indices ``idx`` into the present names);
+    ``base``: for every settings tuple s, the tuple s' with the named parties'
+    settings moved to their first value.  "Marginal of kept at s equals that at
+    base[s]" for all s is equivalent to the clause (every pair that differs
+    only in the named settings is linked through the same s').
+    """
+
+    kept: tuple[str, ...]
+    idx: tuple[int, ...]
+    base: dict[tuple[str, ...], tuple[str, ...]]
+
+
+def project_independence(scenario: Scenario, events: tuple[str, ...], of: tuple[str, ...],
+                         present: list[str], who: str, notes: list[str]) -> Projected | None:
+    """Apply the rule of projection to "events independent of the settings of *of*".
+
+    Returns None (and says so in *notes*) when no event of the clause is
+    present; notes also record events dropped because they are absent.
+    """
+    kept = tuple(n for n in events if n in present)
+    if not kept:
+        notes.append(f"{who}: none of {list(events)} is present here; by projection it adds nothing")
+        return None
+    dropped = [n for n in events if n not in present]
+    if dropped:
+        notes.append(f"{who}: {dropped} absent; by projection it constrains the marginal of {list(kept)}")
+    moved = {scenario.party_index(p) for p in of}
+    base = {s: tuple(scenario.parties[i].settings[0] if i in moved else x for i, x in enumerate(s))
+            for s in scenario.setting_tuples()}
+    return Projected(kept, tuple(present.index(n) for n in kept), base)
 
 
 def _label(events, values) -> str:
@@ -129,20 +166,15 @@ def compile_linear(theory: Theory, spec: str | list[str]) -> LinearModel:
         for ci, c in enumerate(a.clauses):
             if not isinstance(c, Independent):
                 continue
-            kept = [n for n in c.events if n in names]
-            if not kept:
-                notes.append(f"{a.name}: none of {list(c.events)} is present here; by projection it adds nothing")
+            pr = project_independence(sc, c.events, c.of, names, a.name, notes)
+            if pr is None:
                 continue
-            dropped = [n for n in c.events if n not in names]
-            if dropped:
-                notes.append(f"{a.name}: {dropped} absent; by projection it constrains the marginal of {kept}")
-            idx = [names.index(n) for n in kept]
-            moved = [sc.party_index(p) for p in c.of]
+            kept, idx = list(pr.kept), pr.idx
             groups: dict[tuple, dict[tuple, list[int]]] = {}
             for (s, e), j in col_index.items():
                 groups.setdefault(s, {}).setdefault(tuple(e[i] for i in idx), []).append(j)
             for s in settings:
-                base = tuple(sc.parties[i].settings[0] if i in moved else s[i] for i in range(n_party))
+                base = pr.base[s]
                 if base == s:
                     continue
                 for ev in itertools.product(*(events[i].outcomes for i in idx)):

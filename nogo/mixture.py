@@ -94,7 +94,7 @@ from dataclasses import dataclass, replace
 from fractions import Fraction
 from functools import lru_cache
 
-from .compile import compile_linear, present_events, read_out_ok
+from .compile import compile_linear, present_events, project_independence, read_out_ok
 from .errors import InputError, ModelTooLarge, Where
 from .model import Column, LinearModel, RowSource
 from .scenario import EventVar, Scenario
@@ -774,19 +774,10 @@ def _restrict(gv: GroupVertices, keep: set[Settings]) -> GroupVertices:
 def _linear_rows_setup(sc: Scenario, b: _Bundle, names, events, notes):
     """Mixture-level independence clauses: (assumption, clause, event idx, kept, base map)."""
     out = []
-    settings = sc.setting_tuples()
     for a, ci, c in b.linear:
-        kept = tuple(n for n in c.events if n in names)
-        if not kept:
-            notes.append(f"{a}: none of {list(c.events)} is present here; by projection it adds nothing")
-            continue
-        dropped = [n for n in c.events if n not in names]
-        if dropped:
-            notes.append(f"{a}: {dropped} absent; by projection it constrains the marginal of {list(kept)}")
-        moved = {sc.party_index(p) for p in c.of}
-        base_of = {s: tuple(sc.parties[i].settings[0] if i in moved else s[i] for i in range(len(s)))
-                   for s in settings}
-        out.append((a, ci, tuple(names.index(n) for n in kept), kept, base_of))
+        pr = project_independence(sc, c.events, c.of, list(names), a, notes)
+        if pr is not None:
+            out.append((a, ci, pr.idx, pr.kept, pr.base))
     return out
 
 

@@ -34,7 +34,7 @@ from __future__ import annotations
 import itertools
 from dataclasses import dataclass, field
 
-from ..compile import present_events, read_out_ok
+from ..compile import present_events, project_independence, read_out_ok
 from ..errors import InputError, Where
 from ..scenario import EventVar, Scenario
 from ..theory import Absolute, Counterfactual, Factorise, Hidden, Independent, Predetermined, Theory
@@ -208,14 +208,12 @@ def build_space(theory: Theory, spec, pattern: SupportPattern) -> SupportSpace:
         for ci, c in enumerate(a.clauses):
             if not isinstance(c, Independent):
                 continue
-            kept = [n for n in c.events if n in names]
-            if not kept:
-                notes.append(f"{a.name}: none of {list(c.events)} is present; by projection it adds nothing")
+            pr = project_independence(sc, c.events, c.of, names, a.name, notes)
+            if pr is None:
                 continue
-            idx = [names.index(n) for n in kept]
-            moved = [sc.party_index(p) for p in c.of]
+            kept, idx = pr.kept, pr.idx
             for s in settings:
-                base = tuple(sc.parties[i].settings[0] if i in moved else s[i] for i in range(n_party))
+                base = pr.base[s]
                 if base == s:
                     continue
                 left: dict = {}
