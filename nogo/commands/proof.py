@@ -10,6 +10,7 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
+from ..compile import compile_bundle
 from ..errors import InputError
 from ..yamlread import read_yaml_file
 from ._common import add_theory, emit_json, theory_of
@@ -93,6 +94,8 @@ def run(args) -> int:
         else:
             print(f"proof accepted: every one of its {len(Proof.from_dict(data).steps)} steps checks out")
         return 0 if not problems else 1
+    if compile_bundle(theory, args.bundle).kind == "mixture":
+        return _run_responses(args, theory, pattern)
     r = decide_pattern(theory, args.bundle, pattern, minimise="minimal" if args.minimal_only else "smallest",
                        time_limit=args.time_limit)
     says = {n: a.says for n, a in theory.assumptions.items()}
@@ -113,6 +116,31 @@ def run(args) -> int:
         for s, es in r.model.items():
             print(f"  settings ({', '.join(s)}): {len(es)} possible joint assignments"
                   + (": " + "; ".join(" ".join(e) for e in es) if len(es) <= 4 else ""))
+    return 0 if r.contradiction else 1
+
+
+def _run_responses(args, theory, pattern) -> int:
+    """Hidden-variable bundles: the support reading over the mixture's responses."""
+    from ..possibilistic.responses import decide_responses, response_proof_markdown  # noqa: PLC0415
+
+    if args.check or args.latex:
+        raise InputError("--check and --latex are available for joint-support proofs only; "
+                         "this bundle has a hidden variable and is read over its responses")
+    r = decide_responses(theory, args.bundle, pattern)
+    if args.json:
+        emit_json(r.to_dict())
+    elif r.contradiction:
+        print(response_proof_markdown(r, theory.file or ""))
+        print()
+        print(f"uses {len(r.facts) + 1} observed facts (a small cover, not proven smallest); checked independently")
+    else:
+        print(f"consistent: the pattern is possible under '{r.label}' (impossible events: {r.zero_test}).")
+        print(f"A possibilistic model, checked independently: {len(r.model)} responses survive the impossible "
+              "events and together produce every possible event:")
+        for name in r.model[:12]:
+            print(f"  {name}")
+        if len(r.model) > 12:
+            print(f"  ... {len(r.model) - 12} more (use --json)")
     return 0 if r.contradiction else 1
 
 
