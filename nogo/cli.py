@@ -44,6 +44,11 @@ def main(argv: list[str] | None = None) -> int:
     except InputError as exc:
         print(f"nogo: error: {exc}", file=sys.stderr)
         return 2
+    except BrokenPipeError:
+        # the reader went away (e.g. `nogo check ... | head`): not an error of ours; stay quiet
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        return 2
     except KeyboardInterrupt:
         print("nogo: interrupted", file=sys.stderr)
         return 2
