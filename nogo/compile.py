@@ -105,10 +105,14 @@ def project_independence(scenario: Scenario, events: tuple[str, ...], of: tuple[
     dropped = [n for n in events if n not in present]
     if dropped:
         notes.append(f"{who}: {dropped} absent; by projection it constrains the marginal of {list(kept)}")
+    return Projected(kept, tuple(present.index(n) for n in kept), hub_settings(scenario, of))
+
+
+def hub_settings(scenario: Scenario, of: tuple[str, ...]) -> dict[tuple[str, ...], tuple[str, ...]]:
+    """For every settings tuple, the one with the parties *of* moved to their first setting."""
     moved = {scenario.party_index(p) for p in of}
-    base = {s: tuple(scenario.parties[i].settings[0] if i in moved else x for i, x in enumerate(s))
+    return {s: tuple(scenario.parties[i].settings[0] if i in moved else x for i, x in enumerate(s))
             for s in scenario.setting_tuples()}
-    return Projected(kept, tuple(present.index(n) for n in kept), base)
 
 
 def _label(events, values) -> str:

@@ -94,7 +94,7 @@ from dataclasses import dataclass, replace
 from fractions import Fraction
 from functools import lru_cache
 
-from .compile import compile_linear, present_events, project_independence, read_out_ok
+from .compile import compile_linear, hub_settings, present_events, project_independence, read_out_ok
 from .errors import InputError, ModelTooLarge, Where
 from .model import Column, LinearModel, RowSource
 from .scenario import EventVar, Scenario
@@ -445,9 +445,9 @@ def _polytope_vertices(scenario: Scenario, spec: GroupSpec, max_cells: int) -> G
             eq.append([Fraction(1)] + [-v for v in row])
         for c in constraints:
             idx = [names.index(e) for e in c.events]
-            moved = {scenario.party_index(p) for p in c.of}
+            hub = hub_settings(scenario, c.of)
             for s in settings:
-                base = tuple(scenario.parties[i].settings[0] if i in moved else s[i] for i in range(len(s)))
+                base = hub[s]
                 if base == s:
                     continue
                 for v in itertools.product(*(events[i].outcomes for i in idx)):

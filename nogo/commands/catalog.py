@@ -3,9 +3,9 @@
 from __future__ import annotations
 
 from ..catalog import load_catalog, resolve_inequality
-from ..report import q
 from ..symmetry import orbit
-from ._common import emit_json, theory_of
+from ..theory import load_theory
+from ._common import emit_json
 
 
 def register(sub) -> None:
@@ -29,8 +29,7 @@ def run(args) -> int:
     if not args.theory:
         from ..errors import InputError
         raise InputError("listing versions needs --theory THEORY (the scenario they live in)")
-    args_theory = args.theory
-    th = theory_of(type("A", (), {"theory": args_theory})())
+    th = load_theory(args.theory)
     vs = orbit(resolve_inequality(th.scenario, args.name, cat))
     if args.json:
         emit_json([{"name": v.name, "text": v.display(), "canonical": list(v.canonical()[0]),

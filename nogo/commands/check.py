@@ -51,7 +51,7 @@ def run(args) -> int:
         print(f"{len(results)} versions of {ineq.name or ineq.text} under bundle {model.label}:")
         for r in results:
             mark = "implied    " if r.implied else "NOT implied"
-            print(f"  {mark}  max {str(r.maximum):>6}  bound {str(r.inequality.bound):>4}  {r.inequality.display() if not r.inequality.name.endswith('#1') else r.inequality.text}")
+            print(f"  {mark}  max {str(r.maximum):>6}  bound {str(r.inequality.bound):>4}  {r.inequality.display()}")
         n = sum(r.implied for r in results)
         print(f"{n} of {len(results)} implied (each verdict carries exact evidence; use --json to see it)")
     return 0 if all(r.implied for r in results) else 1
