@@ -46,7 +46,17 @@ class Marginal:
 
 @dataclass
 class Inequality:
-    """``sum coeffs[s, a] p(a|s) <= bound`` in full coordinates."""
+    """``sum coeffs[s, a] p(a|s) <= bound`` in full coordinates.
+
+    ``coeffs``/``bound`` are always the ``<=`` form the solvers use.  What the
+    user wrote is kept beside it: ``sense`` (``"<="`` or ``">="``) and
+    ``shift`` (the constant written on the left side), so that the written
+    left side is ``L(p) = sign * (coeffs . p) + shift`` with sign -1 for
+    ``>=``, and the written bound is ``sign * bound + shift``.  Every number a
+    report prints goes through :meth:`written_value` (issue 14, item 0).
+    ``notation`` records the written form ("correlators", "collins-gisin",
+    "probabilities") so that relabelled versions can be shown in it.
+    """
 
     scenario: Scenario
     coeffs: dict[Coord, Fraction]
@@ -55,6 +65,42 @@ class Inequality:
     text: str = ""
     source: str = ""
     marginals: frozenset[Marginal] = field(default_factory=frozenset)
+    sense: str = "<="
+    shift: Fraction = Fraction(0)
+    notation: str = ""
+    origin: str = ""  # how a catalog entry was read in this scenario (printed once)
+
+    # -- the form the user wrote -----------------------------------------------
+    @property
+    def sign(self) -> int:
+        return -1 if self.sense == ">=" else 1
+
+    @property
+    def written_bound(self) -> Fraction:
+        return self.sign * Fraction(self.bound) + Fraction(self.shift)
+
+    def written_value(self, x):
+        """The written left side's value, from the ``<=`` form's value ``x`` (Fraction, float or ball)."""
+        if isinstance(x, Fraction) or isinstance(x, int):
+            return self.sign * Fraction(x) + Fraction(self.shift)
+        y = x if self.sign > 0 else -x
+        if not self.shift:
+            return y
+        if isinstance(y, float):
+            return y + float(self.shift)
+        sh = Fraction(self.shift)
+        return y + type(y)(sh.numerator) / sh.denominator
+
+    @property
+    def extreme(self) -> str:
+        """'largest' for <=, 'smallest' for >=: the value the verdict compares with the bound."""
+        return "smallest" if self.sense == ">=" else "largest"
+
+    def holds_word(self, ok: bool) -> str:
+        """The relation between the written extreme value and the written bound."""
+        if self.sense == ">=":
+            return ">=" if ok else "<"
+        return "<=" if ok else ">"
 
     # -- canonical form ----------------------------------------------------
     def canonical(self) -> tuple[tuple[int, ...], int]:
@@ -68,6 +114,7 @@ class Inequality:
         return self.canonical() == other.canonical()
 
     def value(self, behaviour: dict[Coord, Fraction]) -> Fraction:
+        """Value of the ``<=`` form's left side (see :meth:`written_value` for the written one)."""
         return sum((c * behaviour.get(k, 0) for k, c in self.coeffs.items()), Fraction(0))
 
     def display(self) -> str:
@@ -123,6 +170,7 @@ class _Parser:
         self.pos = 0
         self.where = where or Where()
         self.marginals: set[Marginal] = set()
+        self.kinds: set[str] = set()
 
     def fail(self, msg: str, hint: str | None = None):
         pointer = f" in '{self.text}' at position {self.pos + 1}"
@@ -175,6 +223,7 @@ class _Parser:
     def atom(self) -> dict[Coord, Fraction]:
         self.ws()
         if self.peek("<") and not self.peek("<="):
+            self.kinds.add("correlators")
             return self.correlator()
         if self.peek("p") or self.peek("P"):
             return self.probability()
@@ -359,4 +408,11 @@ def parse_inequality(scenario: Scenario, text: str, name: str = "", source: str 
         coeffs = {k: -v for k, v in coeffs.items()}
         bound = -bound
     coeffs = {k: v for k, v in coeffs.items() if v != 0}
-    return Inequality(scenario, coeffs, bound, name, text, source, frozenset(p.marginals))
+    if "correlators" in p.kinds:
+        notation = "correlators"
+    elif p.marginals:
+        notation = "collins-gisin"
+    else:
+        notation = "probabilities"
+    return Inequality(scenario, coeffs, bound, name, text, source, frozenset(p.marginals),
+                      op.group(), const, notation)

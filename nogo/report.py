@@ -34,19 +34,36 @@ def behaviour_rows(scenario: Scenario, behaviour: dict[Coord, Fraction], keep_ze
     return out
 
 
+def written_extreme(r: CheckResult) -> dict[str, Any]:
+    """The decisive value as the user wrote the inequality: largest for <=, smallest for >=."""
+    ineq = r.inequality
+    key = "minimum" if ineq.sense == ">=" else "maximum"
+    return {"sense": ineq.sense, "extreme": ineq.extreme, "value": q(ineq.written_value(r.maximum)),
+            key: q(ineq.written_value(r.maximum)), "bound": q(ineq.written_bound)}
+
+
+def inequality_dict(ineq) -> dict[str, Any]:
+    """An inequality for JSON: its text, the sense and bound as written, its canonical form."""
+    coeffs, bound = ineq.canonical()
+    d = {"name": ineq.name, "text": ineq.display(), "source": ineq.source,
+         "sense": ineq.sense, "bound": q(ineq.written_bound),
+         "canonical": {"coordinates": [f"p({' '.join(a)}|{' '.join(s)})" for s, a in ineq.scenario.coordinates()],
+                       "coefficients": list(coeffs), "sense": "<=", "bound": bound}}
+    if ineq.origin:
+        d["read_as"] = ineq.origin
+    return d
+
+
 def check_to_dict(r: CheckResult, theory_file: str | None = None) -> dict[str, Any]:
     ineq = r.inequality
-    coeffs, bound = ineq.canonical()
+    ext = written_extreme(r)
     d: dict[str, Any] = {
         "theory": theory_file,
         "bundle": r.bundle,
         "assumptions": list(r.assumptions),
-        "inequality": {"name": ineq.name, "text": ineq.display(), "source": ineq.source,
-                       "bound": q(ineq.bound),
-                       "canonical": {"coordinates": [f"p({' '.join(a)}|{' '.join(s)})" for s, a in ineq.scenario.coordinates()],
-                                     "coefficients": list(coeffs), "bound": bound}},
+        "inequality": inequality_dict(ineq),
         "verdict": r.verdict,
-        "maximum": q(r.maximum),
+        **{k: v for k, v in ext.items() if k != "bound"},
         "method": r.method,
         "model": {"kind": r.model_kind, "rows": r.shape[0], "columns": r.shape[1]},
         "notes": r.notes,
@@ -54,7 +71,7 @@ def check_to_dict(r: CheckResult, theory_file: str | None = None) -> dict[str, A
     if r.certificate is not None:
         c = r.certificate
         d["certificate"] = {
-            "bound": q(c.bound),
+            "bound": q(ineq.written_value(c.bound)), "sense": ineq.sense,
             "by_assumption": c.by_assumption(),
             "positivity_terms": c.positivity,
             "rows": [{"assumption": w.source.assumption, "kind": w.source.kind, "clause": w.source.clause,
@@ -64,11 +81,19 @@ def check_to_dict(r: CheckResult, theory_file: str | None = None) -> dict[str, A
     if r.counterexample is not None:
         ce = r.counterexample
         d["counterexample"] = {
-            "value": q(ce.value),
+            "value": q(ineq.written_value(ce.value)),
             "behaviour": behaviour_rows(ineq.scenario, ce.behaviour),
             "joint": [{"entry": name, "weight": q(w)} for name, w in ce.joint],
         }
     return d
+
+
+def value_sentence(r: CheckResult) -> str:
+    """'the smallest value of the left side over the bundle's set is -2 (exact), >= the bound -2'."""
+    ineq = r.inequality
+    return (f"the {ineq.extreme} value of the left side over the bundle's set is "
+            f"{q(ineq.written_value(r.maximum))} (exact), {ineq.holds_word(r.implied)} the bound "
+            f"{q(ineq.written_bound)}")
 
 
 def _behaviour_table(scenario: Scenario, behaviour: dict[Coord, Fraction]) -> list[str]:
@@ -91,18 +116,22 @@ def check_to_text(r: CheckResult, theory_file: str | None = None, full: bool = F
     L.append(f"inequality  {name}{ineq.display()}")
     if ineq.source:
         L.append(f"            source: {ineq.source}")
-    rel = "<=" if r.implied else ">"
+    if ineq.origin:
+        L.append(f"            {ineq.origin}")
     L.append("")
-    L.append(f"verdict     {r.verdict.upper()}: the largest value of the left side over the bundle's set is "
-             f"{q(r.maximum)} (exact), {rel} the bound {q(ineq.bound)}")
+    L.append(f"verdict     {r.verdict.upper()}: {value_sentence(r)}")
     for n in r.notes:
         L.append(f"note        {n}")
     if r.certificate is not None:
         c = r.certificate
         L.append("")
         L.append("certificate (Farkas multipliers, exact; re-checked without the LP solver):")
-        L.append(f"  left side = sum of weighted constraints - sum of non-negative terms of the joint,")
-        L.append(f"  so it never exceeds {q(c.bound)}.")
+        if ineq.sense == ">=":
+            L.append("  minus the left side = sum of weighted constraints - sum of non-negative terms of the joint,")
+            L.append(f"  so the left side is never below {q(ineq.written_value(c.bound))}.")
+        else:
+            L.append("  left side = sum of weighted constraints - sum of non-negative terms of the joint,")
+            L.append(f"  so it never exceeds {q(ineq.written_value(c.bound))}.")
         for a, n in c.by_assumption().items():
             L.append(f"  {a:<28} {n} constraint(s)")
         L.append(f"  {'positivity of the joint':<28} {c.positivity} term(s)")
@@ -114,7 +143,8 @@ def check_to_text(r: CheckResult, theory_file: str | None = None, full: bool = F
     if r.counterexample is not None:
         ce = r.counterexample
         L.append("")
-        L.append(f"counterexample (exact): a behaviour the bundle allows, with value {q(ce.value)}")
+        L.append(f"counterexample (exact): a behaviour the bundle allows; the left side is "
+                 f"{q(ineq.written_value(ce.value))} there")
         L += ["  " + x for x in _behaviour_table(ineq.scenario, ce.behaviour)]
         L.append(f"  its hidden joint distribution has {len(ce.joint)} non-zero entries:")
         entries = ce.joint if full else ce.joint[:8]
