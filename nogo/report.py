@@ -8,6 +8,7 @@ mathematics about the declared model, not about the prose around it.
 
 from __future__ import annotations
 
+import re
 from fractions import Fraction
 from typing import Any
 
@@ -23,6 +24,44 @@ def q(x: Fraction | int) -> str:
     """Exact rational as text: '2', '-5/2'."""
     x = Fraction(x)
     return str(x.numerator) if x.denominator == 1 else f"{x.numerator}/{x.denominator}"
+
+
+_SETTINGS_HALF = re.compile(r"\|\s*([^)]*)\)")
+_ASSIGN = re.compile(r"([^\s,=|()]+)=([^\s,|()]+)")
+
+
+def plain_row(detail: str) -> str:
+    """Settings after '|' written as 'A.setting=1' (the theory files' notation), outcomes as 'A=+1'."""
+    def fix(m):
+        return "| " + _ASSIGN.sub(lambda a: f"{a.group(1)}.setting={a.group(2)}", m.group(1)) + ")"
+    return _SETTINGS_HALF.sub(fix, detail)
+
+
+def _plain_literal(text: str) -> str:
+    import ast
+
+    try:
+        v = ast.literal_eval(text)
+    except (ValueError, SyntaxError):
+        return text
+
+    def show(x):
+        if isinstance(x, (list, tuple, set, frozenset)):
+            inner = [show(y) for y in x]
+            return ("{" + ", ".join(inner) + "}") if any(isinstance(y, (list, tuple)) for y in x) or \
+                isinstance(x, (set, frozenset)) else ", ".join(inner)
+        return str(x)
+    if isinstance(v, (list, tuple)) and all(isinstance(y, (list, tuple)) for y in v):
+        return ", ".join("{" + ", ".join(map(str, y)) + "}" for y in v)
+    return show(v) if isinstance(v, (list, tuple, set)) else text
+
+
+_LITERAL = re.compile(r"\[(?:[^\[\]]|\[[^\[\]]*\])*\]")
+
+
+def plain_note(note: str) -> str:
+    """A note without Python's list syntax: "['A@1', 'A@2'] absent" -> "A@1, A@2 absent"."""
+    return _LITERAL.sub(lambda m: _plain_literal(m.group(0)), note)
 
 
 def behaviour_rows(scenario: Scenario, behaviour: dict[Coord, Fraction], keep_zero: bool = False) -> list[dict]:
@@ -121,7 +160,7 @@ def check_to_text(r: CheckResult, theory_file: str | None = None, full: bool = F
     L.append("")
     L.append(f"verdict     {r.verdict.upper()}: {value_sentence(r)}")
     for n in r.notes:
-        L.append(f"note        {n}")
+        L.append(f"note        {plain_note(n)}")
     if r.certificate is not None:
         c = r.certificate
         L.append("")
@@ -137,7 +176,7 @@ def check_to_text(r: CheckResult, theory_file: str | None = None, full: bool = F
         L.append(f"  {'positivity of the joint':<28} {c.positivity} term(s)")
         rows = c.rows if full else c.rows[:8]
         for w in rows:
-            L.append(f"    {q(w.weight):>8} x [{w.source.assumption}] {w.source.detail}")
+            L.append(f"    {q(w.weight):>8} x [{w.source.assumption}] {plain_row(w.source.detail)}")
         if len(c.rows) > len(rows):
             L.append(f"    ... {len(c.rows) - len(rows)} more (use --full or --json)")
     if r.counterexample is not None:
@@ -156,3 +195,44 @@ def check_to_text(r: CheckResult, theory_file: str | None = None, full: bool = F
     L.append(f"method      {r.method}; model {r.model_kind}, {r.shape[0]} rows x {r.shape[1]} columns")
     L.append(DISCLAIMER)
     return "\n".join(L)
+
+
+# -- quantum values, in the form the inequality is written in ------------------------
+def quantum_value(v) -> dict[str, Any]:
+    """One :class:`nogo.quantum.certify.Value` as the user wrote the inequality.
+
+    The verdict is computed on the ``<=`` form; the value, its interval, the
+    exact value and the bound printed here are those of the written left side
+    (for ``>=`` a violation is a value *below* the bound).
+    """
+    from .quantum.numbers import arb_text
+
+    ineq = v.inequality
+    val = ineq.written_value(float(v.float_value))
+    ball = ineq.written_value(v.ball) if v.ball is not None else None
+    exact = None
+    if v.exact is not None:
+        import sympy
+
+        sh = Fraction(ineq.shift)
+        exact = sympy.nsimplify(ineq.sign * v.exact + sympy.Rational(sh.numerator, sh.denominator))
+    bound = ineq.written_bound
+    side = "below" if ineq.sense == ">=" else "above"
+    other = "above" if ineq.sense == ">=" else "below"
+    shown = arb_text(ball) if ball is not None else None
+    gap = abs(val - float(bound))
+    if v.verdict == "violated":
+        lo = float((v.ball - type(v.ball)(Fraction(ineq.bound).numerator) / Fraction(ineq.bound).denominator).lower())
+        words = (f"value in {shown} (interval arithmetic), {side} the bound {q(bound)} by at least {lo:.6g}: "
+                 f"the inequality ({ineq.sense}) fails")
+    elif v.verdict == "satisfied":
+        words = f"value in {shown} (interval arithmetic), {other} the bound {q(bound)}: the inequality holds"
+    elif v.verdict == "attained":
+        words = f"value = {exact} = the bound exactly (sympy)"
+    elif v.verdict == "undecided":
+        words = f"value in {shown} contains the bound {q(bound)}; no exact decision"
+    else:
+        words = v.evidence
+    return {"name": ineq.name, "text": ineq.display(), "sense": ineq.sense, "bound": q(bound),
+            "value": val, "interval": shown, "exact": str(exact) if exact is not None else None,
+            "verdict": v.verdict, "violation": gap if v.verdict == "violated" else 0.0, "evidence": words}

@@ -218,11 +218,13 @@ def scenario_from_yaml(raw, file: str | None = None) -> Scenario:
                                  suggest(ro, party.settings))
         relabel_raw = spec.get("relabel")
         if relabel_raw is None:
-            if ro is not None and len(outs) != len(party.outcomes):
+            if ro is not None and (len(outs) != len(party.outcomes) or set(outs) != set(party.outcomes)):
                 raise InputError(
-                    f"read-out needs a 'relabel' map: '{name}' has {len(outs)} outcomes, '{lab}' has {len(party.outcomes)}",
-                    w)
-            relabel = tuple(range(len(outs)))
+                    f"read-out needs a 'relabel' map: '{name}' has outcomes {', '.join(outs)}, "
+                    f"'{lab}' has {', '.join(party.outcomes)}", w,
+                    "say which party outcome each observer outcome shows, e.g. relabel: {0: +1, 1: -1}")
+            # the same labels: matched by label, never by position
+            relabel = tuple(party.outcomes.index(o) if o in party.outcomes else i for i, o in enumerate(outs))
         else:
             rw = spec.where("relabel", f"{path}.relabel")
             if not isinstance(relabel_raw, dict):

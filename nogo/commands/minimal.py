@@ -17,17 +17,19 @@ import sys
 from fractions import Fraction
 from typing import Any
 
-from ..catalog import resolve_inequality
+from ..catalog import resolve_inequality, versions
 from ..errors import InputError
 from ..minimal import Answer, ClaimResult, SearchResult, check_claim, explored_fraction, find_for_many, summarise
 from ..report import DISCLAIMER, check_to_dict, q
-from ..symmetry import orbit
-from ._common import add_output, emit_json, theory_of
+from ._common import add_match, add_output, console, emit_json, shown_path, theory_of
 
 STYLE = {"implied": "green", "contradictory": "green", "not implied": "red", "refused": "yellow",
          "unknown": "bright_black"}
 COLOUR = {"implied": "#4caf50", "contradictory": "#4caf50", "not implied": "#e57373", "refused": "#ffd54f",
           "unknown": "#d0d0d0"}
+# readable without colour: a marker shape in pictures, a sign after each set in the terminal
+SHAPE = {"implied": "o", "contradictory": "o", "not implied": "X", "refused": "s", "unknown": "^"}
+MARK = {"implied": "+", "contradictory": "+", "not implied": "-", "refused": "!", "unknown": "?"}
 
 
 def register(sub) -> None:
@@ -38,7 +40,10 @@ def register(sub) -> None:
                     "MARCO enumeration over the exact oracle; or check a claim with --claim. Hidden-variable "
                     "declarations are background, part of every set. An inequality written with marginals is "
                     "'refused' by sets that do not imply no-signalling for them; those sets count as not "
-                    "implying. Exit status 0 complete / confirmed, 1 partial / refuted, 2 error.")
+                    "implying.\n\n"
+                    "exit status: 0 search complete / claim confirmed, 1 partial / refuted, 2 bad input or error\n"
+                    "example:     nogo minimal theories/friends-2x2.yaml CHSH --picture lattice.svg",
+        formatter_class=__import__("argparse").RawDescriptionHelpFormatter)
     p.add_argument("theory", help="theory file (YAML)")
     p.add_argument("inequality", nargs="+",
                    help="one or more: catalog name (e.g. CHSH), file, or expression '... <= ...'")
@@ -55,6 +60,7 @@ def register(sub) -> None:
     p.add_argument("--max-columns", type=int, default=200_000,
                    help="refuse hidden-variable models larger than this (default 200000)")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
+    add_match(p)
     add_output(p)
     p.set_defaults(run=run)
 
@@ -75,8 +81,9 @@ def run(args) -> int:
     options = {"max_columns": args.max_columns}
     ineqs = []
     for spec in args.inequality:
-        ineq = resolve_inequality(theory.scenario, spec)
-        ineqs += orbit(ineq) if args.all_versions else [ineq]
+        ineq = resolve_inequality(theory.scenario, spec, match=args.match)
+        ineqs += versions(ineq) if args.all_versions else [ineq]
+    args.theory = shown_path(args.theory)
     if args.claim is not None:
         return _run_claim(args, theory, ineqs, options)
     progress, finish = _progress(args, theory, ineqs)
@@ -162,23 +169,31 @@ def _behaviour_short(ineq, behaviour) -> str:
     return "; ".join(f"{','.join(s)} -> {' '.join(v)}" for s, v in by_s.items())
 
 
+def _extreme(a: Answer) -> tuple[str, str]:
+    """('max'|'min', value as written) of an answer's decisive value."""
+    ineq = a.result.inequality if a.result is not None else None
+    if ineq is None or a.maximum is None:
+        return "max", q(a.maximum) if a.maximum is not None else "?"
+    return ("min" if ineq.sense == ">=" else "max"), q(ineq.written_value(a.maximum))
+
+
 def _evidence(a: Answer) -> str:
+    word, value = _extreme(a)
     if a.status == "implied":
         c = a.result.certificate
         used = ", ".join(f"{k} x{n}" for k, n in c.by_assumption().items())
-        return f"max {q(a.maximum)}; certificate: {used or 'normalisation only'}; re-checked"
+        return f"{word} {value}; certificate: {used or 'normalisation only'}; re-checked"
     if a.status == "contradictory":
         return "the set admits no behaviour (implies everything vacuously)"
     if a.status == "refused":
         return "refused: " + a.message
-    return f"reaches {q(a.maximum)}; counterexample re-checked"
+    return f"{word} {value}; counterexample re-checked"
 
 
 def print_search(results: list[SearchResult], theory_file: str, picture: str | None = None) -> None:
-    from rich.console import Console
     from rich.table import Table
 
-    con = Console(highlight=False)
+    con = console()
     groups = _patterns(results)
     first = results[0]
     con.print(f"theory      {theory_file}")
@@ -194,6 +209,8 @@ def print_search(results: list[SearchResult], theory_file: str, picture: str | N
         con.rule(f"{names}" if len(members) < 4 else f"{len(members)} versions: {names[:70]}...")
         if len(members) == 1:
             con.print(f"inequality  {r.inequality.display()}" + (f"   [{r.inequality.source}]" if r.inequality.source else ""))
+            if r.inequality.origin:
+                con.print(f"            ({r.inequality.origin})")
         if not r.complete:
             con.print("[bold yellow]PARTIAL[/]: the time limit was reached; the sets below are confirmed, "
                       "others may exist", )
@@ -201,7 +218,7 @@ def print_search(results: list[SearchResult], theory_file: str, picture: str | N
         t.add_column("set")
         t.add_column("evidence")
         for a in r.minimal:
-            t.add_row(_set(_ordered(r, a.subset)), _evidence(a), style=STYLE[a.status])
+            t.add_row(_set(_ordered(r, a.subset)) + " " + MARK[a.status], _evidence(a), style=STYLE[a.status])
         if not r.minimal:
             t.add_row("none", "not even the whole pool implies the inequality" if r.complete
                       else "none found before the time limit")
@@ -213,7 +230,7 @@ def print_search(results: list[SearchResult], theory_file: str, picture: str | N
         t.add_column("counterexample behaviour p(outcomes | settings)", overflow="fold")
         for a in r.maximal:
             ce = a.result.counterexample if a.result is not None else None
-            t.add_row(_set(_ordered(r, a.subset)), _evidence(a),
+            t.add_row(_set(_ordered(r, a.subset)) + " " + MARK[a.status], _evidence(a),
                       _behaviour_short(r.inequality, ce.behaviour) if ce else "", style=STYLE[a.status])
         if not r.maximal:
             t.add_row("none", "every subset implies (the background alone does)" if r.complete
@@ -278,8 +295,8 @@ def print_lattice(con, r: SearchResult) -> None:
     tags = _tags(r.pool)
     mins = {a.subset for a in r.minimal}
     maxs = {a.subset for a in r.maximal}
-    con.print("subset lattice (\\[x] minimal implicating, (x) maximal non-implying; "
-              "[green]implied[/] [red]not implied[/] [yellow]refused[/] [bright_black]unknown[/]):")
+    con.print("subset lattice (\\[x] minimal implicating, (x) maximal non-implying; after each set "
+              "[green]+ implied[/], [red]- not implied[/], [yellow]! refused[/], [bright_black]? unknown[/]):")
     con.print("  " + "  ".join(f"{t} = {p}" for p, t in tags.items()))
     n = len(r.pool)
     if n > 6:
@@ -289,11 +306,12 @@ def print_lattice(con, r: SearchResult) -> None:
                 counts[st] = counts.get(st, 0) + 1
             line = Text(f"  size {k:>2}: ")
             for st, c in counts.items():
-                line.append(f"{c} {st}  ", style=STYLE[st])
+                line.append(f"{c} {st} ({MARK[st]})  ", style=STYLE[st])
             marks = [s for s, _ in level if s in mins or s in maxs]
             for s in marks:
                 code = "".join(tags[p] for p in r.pool if p in s) or "0"
-                line.append(f"[{code}] " if s in mins else f"({code}) ", style="bold " + STYLE[r.status_of(s)])
+                mark = MARK[r.status_of(s)]
+                line.append(f"[{code}]{mark} " if s in mins else f"({code}){mark} ", style="bold " + STYLE[r.status_of(s)])
             con.print(line)
         return
     for k, level in reversed(list(enumerate(lattice_levels(r)))):
@@ -305,8 +323,8 @@ def print_lattice(con, r: SearchResult) -> None:
             elif s in maxs:
                 code, style = f"({code})", "bold " + STYLE[st]
             else:
-                code, style = f" {code} ", STYLE[st]
-            line.append(code + " ", style=style)
+                code, style = f" {code}", STYLE[st]
+            line.append(code + MARK[st] + ("  " if code.startswith(" ") else " "), style=style)
         con.print(line)
 
 
@@ -317,7 +335,9 @@ def draw_lattices(results: list[SearchResult], path: str, theory_file: str = "")
 
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
-    from matplotlib.patches import Patch
+    from matplotlib.lines import Line2D
+
+    from ..atomic import save_figure
 
     groups = list(_patterns(results).values())[:12]
     cols = min(len(groups), 3)
@@ -331,14 +351,16 @@ def draw_lattices(results: list[SearchResult], path: str, theory_file: str = "")
         _draw_one(ax, results[members[0]], [_ineq_name(results[i]) for i in members])
     r = results[0]
     tags = _tags(r.pool)
-    legend = [Patch(color=COLOUR[s], label=s) for s in ("implied", "not implied", "refused", "unknown")]
-    legend.append(Patch(facecolor="white", edgecolor="black", linewidth=2.5, label="minimal / maximal set"))
+    legend = [Line2D([], [], ls="", marker=SHAPE[s], ms=9, color=COLOUR[s], markeredgecolor="0.3", label=s)
+              for s in ("implied", "not implied", "refused", "unknown")]
+    legend.append(Line2D([], [], ls="", marker="o", ms=11, markerfacecolor="white", markeredgecolor="black",
+                         markeredgewidth=2.5, label="minimal / maximal set (thick rim)"))
     fig.legend(handles=legend, loc="lower center", ncol=5, frameon=False)
     key = "   ".join(f"{t} = {p}" for p, t in tags.items())
     bg = f"   background: {', '.join(r.background)}" if r.background else ""
     fig.suptitle(f"{theory_file}\n{key}{bg}", fontsize=9)
     fig.tight_layout(rect=(0, 0.05, 1, 0.93))
-    fig.savefig(path)
+    save_figure(fig, path)
     plt.close(fig)
 
 
@@ -364,8 +386,8 @@ def _draw_one(ax, r: SearchResult, names: list[str]) -> None:
     size = max(30.0, 600.0 / max(1, 2 ** n / 16))
     for s, (x, y) in pos.items():
         special = s in mins or s in maxs
-        ax.scatter([x], [y], s=size * (1.6 if special else 1.0), color=COLOUR[status[s]],
-                   edgecolors="black" if special else "none", linewidths=2.5 if special else 0, zorder=2)
+        ax.scatter([x], [y], s=size * (1.6 if special else 1.0), color=COLOUR[status[s]], marker=SHAPE[status[s]],
+                   edgecolors="black" if special else "0.3", linewidths=2.5 if special else 0.5, zorder=2)
         if n <= 6 or special:
             code = "".join(tags[p] for p in r.pool if p in s) or "∅"
             ax.annotate(code, (x, y), textcoords="offset points", xytext=(0, 9), ha="center", fontsize=7,
@@ -380,9 +402,15 @@ def _draw_one(ax, r: SearchResult, names: list[str]) -> None:
 
 # -- JSON -------------------------------------------------------------------------------
 def answer_to_dict(a: Answer, pool: tuple[str, ...]) -> dict[str, Any]:
-    d: dict[str, Any] = {"set": [p for p in pool if p in a.subset], "status": a.status,
-                         "maximum": q(a.maximum) if a.maximum is not None else None,
-                         "recheck": "ok" if a.recheck is None else a.recheck}
+    ineq = a.result.inequality if a.result is not None else None
+    d: dict[str, Any] = {"set": [p for p in pool if p in a.subset], "status": a.status}
+    if ineq is not None and a.maximum is not None:
+        d.update(sense=ineq.sense, extreme=ineq.extreme, value=q(ineq.written_value(a.maximum)))
+        d["minimum" if ineq.sense == ">=" else "maximum"] = d["value"]
+    else:
+        d["value"] = d["maximum"] = q(a.maximum) if a.maximum is not None else None
+    d.update({
+                         "recheck": "ok" if a.recheck is None else a.recheck})
     if a.message:
         d["message"] = a.message
     if a.result is not None:
@@ -398,7 +426,8 @@ def search_to_dict(results: list[SearchResult], theory_file: str) -> dict[str, A
     for r in results:
         ineq = r.inequality
         out.append({
-            "inequality": {"name": ineq.name, "text": ineq.display(), "bound": q(ineq.bound), "source": ineq.source},
+            "inequality": {"name": ineq.name, "text": ineq.display(), "sense": ineq.sense,
+                           "bound": q(ineq.written_bound), "source": ineq.source},
             "pool": list(r.pool), "background": list(r.background), "complete": r.complete,
             "oracle_calls": r.oracle_calls, "brute_force": r.brute_force, "seconds": round(r.seconds, 3),
             "minimal": [answer_to_dict(a, r.pool) for a in r.minimal],
@@ -411,7 +440,8 @@ def search_to_dict(results: list[SearchResult], theory_file: str) -> dict[str, A
 
 
 def claim_to_dict(c: ClaimResult, pool: tuple[str, ...], theory_file: str, ineq) -> dict[str, Any]:
-    return {"theory": theory_file, "inequality": {"name": ineq.name, "text": ineq.display(), "bound": q(ineq.bound)},
+    return {"theory": theory_file, "inequality": {"name": ineq.name, "text": ineq.display(), "sense": ineq.sense,
+                                                  "bound": q(ineq.written_bound)},
             "claim": sorted(c.claimed), "background": list(c.background), "verdict": c.verdict, "reason": c.reason,
             "whole": answer_to_dict(c.whole, pool),
             "without_one": {p: answer_to_dict(a, pool) for p, a in c.drops.items()},

@@ -3,18 +3,41 @@ and whether it lies inside each bundle's set (with exact or interval evidence)."
 
 from __future__ import annotations
 
-import json
-from pathlib import Path
+import argparse
 
 from ..catalog import load_catalog, resolve_inequality
 from ..compile import compile_bundle
 from ..errors import InputError, Where
 from ..inequality import Inequality, parse_inequality
-from ._common import add_output, emit_json
+from ._common import add_match, add_output, emit_json, shown_path
+
+
+def separating_dict(s) -> dict:
+    """A certified separating inequality for JSON, every number in the form of its text."""
+    from ..quantum.numbers import arb_text
+
+    return {"text": s.text, "form": s.form, "sense": s.shown.sense, "bound": str(s.shown.written_bound),
+            "value": arb_text(s.shown_value), "full": s.inequality.display(),
+            "full_value": arb_text(s.value), "full_bound": str(s.inequality.bound),
+            "certificate_rows": len(s.check.certificate.rows),
+            "visibility_at_most": arb_text(s.visibility_bound) if s.visibility_bound is not None else None}
+
+
+def _bundle_evidence(r) -> str:
+    if r.inside is True:
+        return r.inside_evidence
+    if r.inside is False and r.separation is not None:
+        s = r.separation
+        return (f"separating inequality valid for the bundle (exact Farkas certificate, "
+                f"{len(s.check.certificate.rows)} weighted constraints) whose value here exceeds its bound "
+                f"(interval arithmetic)")
+    return "; ".join(r.notes) or r.status
 
 
 def register(sub) -> None:
     p = sub.add_parser("quantum", help="a quantum experiment: behaviour, violated inequalities, bundle membership",
+                       formatter_class=argparse.RawDescriptionHelpFormatter,
+                       epilog="example:     nogo quantum examples/experiments/larch-birch-chsh.yaml -i CHSH",
                        description="Compute the Born-rule behaviour of an experiment file, the value of each "
                                    "inequality (violations certified by exact or interval arithmetic, never by a "
                                    "bare float), and for each bundle whether the behaviour lies in its set, with "
@@ -33,6 +56,7 @@ def register(sub) -> None:
                    help="noise for the critical visibility: 'white' (default) or a state, e.g. "
                         "\"{product: [[1, 0], [1, 0]]}\"")
     p.add_argument("--exact", action="store_true", help="print the exact behaviour (sympy) when inputs allow")
+    add_match(p)
     add_output(p)
     p.set_defaults(run=run)
 
@@ -63,7 +87,7 @@ def load_inequality_file(scenario, path: str) -> list[Inequality]:
 def _inequalities(args, scenario, theory) -> list[Inequality]:
     out = []
     if args.inequality:
-        out += [resolve_inequality(scenario, s) for s in args.inequality]
+        out += [resolve_inequality(scenario, s, match=args.match) for s in args.inequality]
     if args.facets:
         out += load_inequality_file(scenario, args.facets)
     if args.facets_of:
@@ -122,44 +146,42 @@ def run(args) -> int:
             raise InputError(f"--exact: {exc}") from None
     outside = any(r.inside is False and r.separation is not None for r in robust)
 
+    from ..report import quantum_value
+
+    shown = [quantum_value(v) for v in values]
+    exp_file, th_file = shown_path(args.experiment), shown_path(args.theory or exp.theory_file)
     if args.json:
         emit_json({
-            "experiment": args.experiment, "title": exp.title, "theory": args.theory or exp.theory_file,
+            "experiment": exp_file, "title": exp.title, "theory": th_file,
             "state": exp.state.label, "exact_inputs": exp.is_exact,
             "behaviour": [{"settings": list(s), "outcomes": list(a), "p": fb[(s, a)],
                            **({"exact": str(eb[(s, a)])} if eb else {})} for s, a in sc.coordinates()],
-            "inequalities": [{"name": v.inequality.name, "text": v.inequality.display(),
-                              "bound": str(v.inequality.bound), "value": v.float_value,
-                              "interval": arb_text(v.ball) if v.ball is not None else None,
-                              "exact": str(v.exact) if v.exact is not None else None,
-                              "verdict": v.verdict, "evidence": v.evidence} for v in values],
+            "inequalities": shown,
             "bundles": [{"bundle": r.bundle, "inside": r.inside, "critical_visibility": r.visibility,
-                         "noise": r.noise, "status": r.status, "evidence": r.inside_evidence, "notes": r.notes,
-                         **({"separating": {"text": r.separation.text,
-                                            "full": r.separation.inequality.display(),
-                                            "value": arb_text(r.separation.value),
-                                            "bound": str(r.separation.inequality.bound),
-                                            "certificate_rows": len(r.separation.check.certificate.rows),
-                                            "visibility_at_most": arb_text(r.separation.visibility_bound)
-                                            if r.separation.visibility_bound is not None else None}}
-                            if r.separation else {})} for r in robust],
+                         "noise": r.noise, "status": r.status, "evidence": _bundle_evidence(r), "notes": r.notes,
+                         **({"separating": separating_dict(r.separation)} if r.separation else {})}
+                        for r in robust],
         })
         return 0 if outside else 1
 
-    L = [f"experiment  {args.experiment}" + (f"  ({exp.title})" if exp.title else ""),
-         f"theory      {args.theory or exp.theory_file}",
+    L = [f"experiment  {exp_file}" + (f"  ({exp.title})" if exp.title else ""),
+         f"theory      {th_file}",
          f"state       {exp.state.label}; inputs {'exact' if exp.is_exact else 'numeric only (no certified verdicts)'}",
          "", "behaviour (Born rule):"]
     L += _behaviour_table(sc, fb, eb)
-    L += ["", "inequalities:"]
-    for v in values:
+    L += ["", "inequalities (values of the left side as written):"]
+    for v, d in zip(values, shown):
         name = v.inequality.name or v.inequality.display()
-        shown = f"{v.exact} = {v.float_value:.6f}" if v.exact is not None else f"{v.float_value:.6f}"
+        val = f"{d['exact']} = {d['value']:.6f}" if d["exact"] is not None else f"{d['value']:.6f}"
         mark = {"violated": "VIOLATED", "satisfied": "satisfied", "attained": "attains bound",
                 "undecided": "undecided", "float only": "not certified"}[v.verdict]
-        L.append(f"  {name:<22} value {shown}  bound {v.inequality.bound}  {mark}"
-                 + (f" by {v.excess:.6f}" if v.violated else ""))
-        L.append(f"  {'':<22} {v.evidence}")
+        L.append(f"  {name:<22} value {val}, bound {v.inequality.sense} {d['bound']}: {mark}"
+                 + (f" by {d['violation']:.6f}" if v.violated else ""))
+        if v.inequality.name and v.inequality.text:
+            L.append(f"  {'':<22} {v.inequality.display()}")
+        if v.inequality.origin:
+            L.append(f"  {'':<22} ({v.inequality.origin})")
+        L.append(f"  {'':<22} {d['evidence']}")
     L += ["", f"bundles (critical visibility against {robust[0].noise if robust else 'noise'}):"]
     for r in robust:
         if r.inside is True:
@@ -170,10 +192,12 @@ def run(args) -> int:
             L.append(f"  {r.bundle:<22} OUTSIDE; critical visibility {r.visibility:.6f} (float LP)"
                      + (f", certified <= {arb_text(s.visibility_bound)}" if s.visibility_bound is not None else ""))
             L.append(f"  {'':<22} separating inequality, valid for the bundle (exact Farkas certificate, "
-                     f"{len(s.check.certificate.rows)} constraints):")
+                     f"{len(s.check.certificate.rows)} constraints), in {s.form} form:")
             L.append(f"  {'':<24}{s.text}")
-            L.append(f"  {'':<22} its value here: {arb_text(s.value)} (full form, bound {s.inequality.bound}; "
-                     f"interval arithmetic)")
+            if s.form != "full":
+                L.append(f"  {'':<24}(equal to its full-coordinate form on this bundle's set)")
+            L.append(f"  {'':<22} its left side here: {arb_text(s.shown_value)} > the bound "
+                     f"{s.shown.written_bound} (interval arithmetic)")
         else:
             L.append(f"  {r.bundle:<22} {'outside by float LP only' if r.inside is False else r.status}"
                      + (f"; v* = {r.visibility:.6f}" if r.visibility is not None else ""))

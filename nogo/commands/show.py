@@ -2,13 +2,22 @@
 
 from __future__ import annotations
 
+import argparse
+
 from ..compile import compile_bundle
 from ..errors import InputError
-from ._common import add_output, emit_json, theory_of
+from ..report import plain_note
+from ._common import add_output, emit_json, shown_path, theory_of
 
 
 def register(sub) -> None:
-    p = sub.add_parser("show", help="describe a theory: scenario, assumptions, bundles and model sizes")
+    p = sub.add_parser("show", help="describe a theory: scenario, assumptions, bundles and model sizes",
+                       formatter_class=argparse.RawDescriptionHelpFormatter,
+                       description="Print what a theory file declares (parties, settings, outcomes, inner "
+                                   "observers, assumptions with their words and sources, bundles) and the size "
+                                   "and kind of the model each bundle compiles to.\n\n"
+                                   "exit status: 0 shown, 2 bad input or error\n"
+                                   "example:     nogo show theories/friends-2x2.yaml")
     p.add_argument("theory", help="theory file (YAML)")
     add_output(p)
     p.set_defaults(run=run)
@@ -20,11 +29,12 @@ def run(args) -> int:
     for b in th.bundles:
         try:
             m = compile_bundle(th, b)
-            sizes[b] = {"kind": m.kind, "rows": m.shape[0], "columns": m.shape[1], "notes": m.notes}
+            sizes[b] = {"kind": m.kind, "rows": m.shape[0], "columns": m.shape[1],
+                        "notes": [plain_note(n) for n in m.notes]}
         except InputError as exc:
             sizes[b] = {"error": exc.message}
     if args.json:
-        emit_json({"theory": args.theory, "title": th.title,
+        emit_json({"theory": shown_path(args.theory), "title": th.title,
                    "parties": {p.name: {"settings": list(p.settings), "outcomes": list(p.outcomes)}
                                for p in th.scenario.parties},
                    "inner_observers": {o.name: {"lab": o.lab, "read_out_at": o.read_out_at}
@@ -32,7 +42,7 @@ def run(args) -> int:
                    "assumptions": {a.name: {"says": a.says, "source": a.source} for a in th.assumptions.values()},
                    "bundles": {b: {"assumptions": list(m), **sizes[b]} for b, m in th.bundles.items()}})
         return 0
-    print(th.title or args.theory)
+    print(th.title or shown_path(args.theory))
     print(th.scenario.describe())
     print("\nassumptions:")
     for a in th.assumptions.values():

@@ -2,11 +2,16 @@
 
 from __future__ import annotations
 
-from ._common import add_output, emit_json
+import argparse
+
+from ._common import add_match, add_output, emit_json, shown_path
 
 
 def register(sub) -> None:
     p = sub.add_parser("visibility", help="critical visibility of an experiment's state against a bundle",
+                       formatter_class=argparse.RawDescriptionHelpFormatter,
+                       epilog="example:     nogo visibility examples/experiments/larch-birch-chsh.yaml Bell-local "
+                              "--plot sweep.png",
                        description="The largest weight v of the state, mixed with 1 - v of noise, at which the "
                                    "behaviour stays in the bundle's set (LP), the certified separating inequality "
                                    "from the LP dual, and optionally a sweep with a plot. Exit status 0 when the "
@@ -19,6 +24,7 @@ def register(sub) -> None:
     p.add_argument("--steps", type=int, default=41, help="sweep points (default 41)")
     p.add_argument("-i", "--inequality", action="append", default=[],
                    help="inequalities to draw in the sweep (default: the separating one)")
+    add_match(p)
     add_output(p)
     p.set_defaults(run=run)
 
@@ -44,18 +50,20 @@ def run(args) -> int:
     r = robustness(model, exp, noise)
     sep = r.separation
     if args.plot:
-        ineqs = [resolve_inequality(exp.scenario, s) for s in args.inequality]
+        ineqs = [resolve_inequality(exp.scenario, s, match=args.match) for s in args.inequality]
         if not ineqs and sep is not None:
-            ineqs = [sep.inequality]
+            ineqs = [sep.shown]
         data = sweep(model, exp, ineqs, noise, args.steps)
-        plot_sweep(data, args.plot, f"{exp.title or args.experiment} vs {model.label}", r.visibility)
+        plot_sweep(data, args.plot, f"{exp.title or shown_path(args.experiment)} against {model.label}",
+                   r.visibility)
     if args.json:
-        emit_json({"bundle": model.label, "noise": r.noise, "status": r.status, "critical_visibility": r.visibility,
-                   "inside": r.inside, "evidence": r.inside_evidence, "notes": r.notes,
-                   "separating": None if sep is None else {
-                       "text": sep.text, "full": sep.inequality.display(), "value": arb_text(sep.value),
-                       "visibility_at_most": arb_text(sep.visibility_bound) if sep.visibility_bound is not None else None},
-                   "plot": args.plot})
+        from .quantum import _bundle_evidence, separating_dict
+
+        emit_json({"experiment": shown_path(args.experiment), "bundle": model.label, "noise": r.noise,
+                   "status": r.status, "critical_visibility": r.visibility,
+                   "inside": r.inside, "evidence": _bundle_evidence(r), "notes": r.notes,
+                   "separating": None if sep is None else separating_dict(sep),
+                   "plot": shown_path(args.plot)})
     else:
         print(f"bundle      {model.label}\nnoise       {r.noise}")
         if r.visibility is None:
@@ -68,11 +76,13 @@ def run(args) -> int:
             if sep is not None:
                 if sep.visibility_bound is not None:
                     print(f"certified   critical visibility <= {arb_text(sep.visibility_bound)}")
-                print(f"inequality  {sep.text}")
+                print(f"inequality  {sep.text}   ({sep.form} form)")
                 print(f"            valid for the bundle: exact Farkas certificate with "
                       f"{len(sep.check.certificate.rows)} weighted constraints")
+                print(f"            its left side at v = 1: {arb_text(sep.shown_value)}, bound "
+                      f"{sep.shown.sense} {sep.shown.written_bound} (interval arithmetic)")
         for n in r.notes:
             print(f"note        {n}")
         if args.plot:
-            print(f"plot        {args.plot}")
+            print(f"plot        {shown_path(args.plot)}")
     return 0 if r.inside is False and sep is not None else 1

@@ -104,9 +104,12 @@ class Separation:
 
     inequality: Inequality  # full coordinates, bound = its exact maximum over the bundle
     check: CheckResult  # the exact decision (implied, with certificate)
-    value: flint.arb  # rigorous enclosure of its value on the state's behaviour
+    value: flint.arb  # rigorous enclosure of its value on the state's behaviour (full form)
     text: str  # in the trade's notation (Collins–Gisin when the bundle is no-signalling)
     visibility_bound: flint.arb | None  # certified: v_c <= this (when the noise behaviour is exact)
+    shown: Inequality | None = None  # ``text`` parsed back: the form every printed number refers to
+    shown_value: flint.arb | None = None  # its value on the state's behaviour
+    form: str = "full"  # "Collins–Gisin" or "full"
 
     @property
     def margin(self) -> float:
@@ -154,24 +157,29 @@ def separate(model: LinearModel, z: np.ndarray, p_state_balls: dict, p_noise_bal
                     vb = (arb_from_fraction(ineq.bound) - noise_val) / (value - noise_val)
             finally:
                 flint.ctx.prec = old
-            return Separation(ineq, check, value, notation(model, ineq), vb)
+            text, shown, form = notation(model, ineq)
+            shown_value = ball_dot(shown.coeffs, p_state_balls)
+            return Separation(ineq, check, value, text, vb, shown, shown_value, form)
     return None
 
 
-def notation(model: LinearModel, ineq: Inequality) -> str:
-    """Collins–Gisin text when the bundle makes every marginal setting-independent, else full coordinates."""
+def notation(model: LinearModel, ineq: Inequality) -> tuple[str, Inequality, str]:
+    """Collins–Gisin text when the bundle makes every marginal setting-independent, else full coordinates.
+
+    Returns the text, the text parsed back (every number printed refers to it) and the form's name."""
     from ..check import marginal_guard
     from ..errors import InputError
     from ..inequality import parse_inequality
 
     text = collins_gisin_text(model.scenario, ineq.coeffs, ineq.bound)
     try:
-        cg = parse_inequality(model.scenario, text)
+        cg = parse_inequality(model.scenario, text, ineq.name)
         if cg.marginals:
             marginal_guard(model, cg)
-        return text + "   (Collins–Gisin form; equal to the full form on this bundle's set)"
+        return text, cg, "Collins–Gisin"
     except InputError:
-        return format_inequality(model.scenario, ineq.coeffs, ineq.bound)
+        text = format_inequality(model.scenario, ineq.coeffs, ineq.bound)
+        return text, parse_inequality(model.scenario, text, ineq.name), "full"
 
 
 @dataclass
@@ -267,7 +275,7 @@ def _member(task) -> bool:
 
 def sweep(model: LinearModel, exp: Experiment, inequalities: list[Inequality], noise=None, steps: int = 41,
           workers: int | None = None) -> dict:
-    """Values of the inequalities and float membership along v in [0, 1]."""
+    """Values of the inequalities (left sides as written) and float membership along v in [0, 1]."""
     nstate = noise_state(exp, noise)
     p_s = behaviour_array(exp.state.rho, exp.state.dims, numeric_povms(exp))
     p_n = behaviour_array(nstate.rho, nstate.dims, numeric_povms(exp))
@@ -275,33 +283,51 @@ def sweep(model: LinearModel, exp: Experiment, inequalities: list[Inequality], n
     pts = [v * p_s + (1 - v) * p_n for v in vs]
     inside = fan_out(_member, [(model, p) for p in pts], workers)
     vecs = [np.array([float(x) for x in q.vector()]) for q in inequalities]
+    label = {id(q): (f"{q.name}: " if q.name else "") + q.display() for q in inequalities}
     return {"v": vs.tolist(), "inside": inside,
-            "values": {q.name or q.display(): [float(vec @ p) for p in pts] for q, vec in zip(inequalities, vecs)},
-            "bounds": {q.name or q.display(): float(q.bound) for q in inequalities}}
+            "values": {label[id(q)]: [q.written_value(float(vec @ p)) for p in pts]
+                       for q, vec in zip(inequalities, vecs)},
+            "bounds": {label[id(q)]: float(q.written_bound) for q in inequalities},
+            "senses": {label[id(q)]: q.sense for q in inequalities}}
 
 
 def plot_sweep(data: dict, path: str, title: str = "", critical: float | None = None) -> None:
-    """Inequality values against visibility; shaded where the behaviour is outside the set."""
+    """Inequality values against visibility; hatched where the behaviour is outside the set.
+
+    Every line has its own dash pattern and marker, so the legend reads without colour; the
+    y-axis is the left side of each inequality as written (its text is in the legend)."""
+    import textwrap
+
     import matplotlib
 
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-    fig, ax = plt.subplots(figsize=(6.4, 4.2))
+    from ..atomic import save_figure
+
+    styles = [("-", "o"), ("--", "s"), ("-.", "^"), (":", "D"), ((0, (5, 1, 1, 1)), "v")]
+    fig, ax = plt.subplots(figsize=(7.2, 5.0))
     v = data["v"]
-    for name, vals in data["values"].items():
-        line, = ax.plot(v, vals, label=name)
-        ax.axhline(data["bounds"][name], color=line.get_color(), ls=":", lw=1)
+    every = max(1, len(v) // 10)
+    for k, (name, vals) in enumerate(data["values"].items()):
+        ls, mk = styles[k % len(styles)]
+        text = "\n".join(textwrap.wrap(name, 60, break_on_hyphens=False))
+        line, = ax.plot(v, vals, ls=ls, marker=mk, markevery=every, ms=4, label=text)
+        sense = data.get("senses", {}).get(name, "<=")
+        ax.axhline(data["bounds"][name], color=line.get_color(), ls=(0, (1, 2)), lw=1,
+                   label=f"its bound ({sense} {data['bounds'][name]:g})")
     outside = [x for x, ins in zip(v, data["inside"]) if not ins]
     if outside:
-        ax.axvspan(min(outside), max(outside), color="0.9", zorder=0, label="outside the set")
+        start = critical if critical is not None and critical < 1 else min(outside)
+        ax.axvspan(start, max(outside), facecolor="0.92", edgecolor="0.6", hatch="//", lw=0, zorder=0,
+                   label="outside the set (float LP)")
     if critical is not None and critical < 1:
         ax.axvline(critical, color="k", ls="--", lw=1, label=f"critical visibility {critical:.4f}")
-    ax.set_xlabel("visibility v (weight of the state)")
-    ax.set_ylabel("value of the left side")
+    ax.set_xlabel("visibility v (weight of the state; 1 - v of noise)")
+    ax.set_ylabel("left side of the inequality, as written")
     if title:
-        ax.set_title(title)
-    ax.legend(fontsize=8)
+        ax.set_title("\n".join(textwrap.wrap(title, 70, break_on_hyphens=False)), fontsize=10)
+    ax.legend(fontsize=7, loc="best")
     fig.tight_layout()
-    fig.savefig(path)
+    save_figure(fig, path)
     plt.close(fig)
