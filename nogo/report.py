@@ -12,9 +12,13 @@ import re
 from fractions import Fraction
 from typing import Any
 
-from .check import CheckResult
+from typing import TYPE_CHECKING
+
 from .inequality import Coord
 from .scenario import Scenario
+
+if TYPE_CHECKING:
+    from .check import CheckResult
 
 DISCLAIMER = ("This answer is about the assumptions exactly as declared in the theory file; "
               "whether they capture what a paper means by them is for the reader to judge.")

@@ -4,9 +4,10 @@ from __future__ import annotations
 
 import json
 import sys
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
-from ..theory import Theory, load_theory
+if TYPE_CHECKING:
+    from ..theory import Theory
 
 
 def add_theory(p, bundle: bool = True) -> None:
@@ -47,7 +48,9 @@ def shown_path(path: str | None) -> str | None:
     return rel if not rel.startswith("..") else full
 
 
-def theory_of(args) -> Theory:
+def theory_of(args) -> "Theory":
+    from ..theory import load_theory
+
     return load_theory(args.theory)
 
 

@@ -4,8 +4,6 @@ from __future__ import annotations
 
 import argparse
 
-from ..catalog import load_catalog, resolve_inequality, versions
-from ..theory import load_theory
 from ._common import add_match, emit_json
 
 
@@ -25,7 +23,9 @@ def register(sub) -> None:
 
 
 def run(args) -> int:
+    from ..catalog import load_catalog, resolve_inequality, versions
     from ..errors import InputError
+    from ..theory import load_theory
 
     cat = load_catalog()
     if not args.name:

@@ -4,10 +4,6 @@ from __future__ import annotations
 
 import argparse
 
-from ..catalog import resolve_inequality, versions
-from ..check import decide, recheck
-from ..compile import compile_bundle
-from ..report import check_to_dict, check_to_text, q
 from ._common import add_match, add_output, add_theory, emit_json, shown_path, theory_of
 
 
@@ -33,6 +29,11 @@ def register(sub) -> None:
 
 
 def run(args) -> int:
+    from ..catalog import resolve_inequality, versions
+    from ..check import decide, recheck
+    from ..compile import compile_bundle
+    from ..report import check_to_dict, check_to_text, q
+
     theory = theory_of(args)
     ineq = resolve_inequality(theory.scenario, args.inequality, match=args.match)
     model = compile_bundle(theory, args.bundle, max_columns=args.max_columns)

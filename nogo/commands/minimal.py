@@ -17,11 +17,33 @@ import sys
 from fractions import Fraction
 from typing import Any
 
-from ..catalog import resolve_inequality, versions
+from typing import TYPE_CHECKING
+
 from ..errors import InputError
-from ..minimal import Answer, ClaimResult, SearchResult, check_claim, explored_fraction, find_for_many, summarise
-from ..report import DISCLAIMER, check_to_dict, q
+from ..report import DISCLAIMER, q
 from ._common import add_match, add_output, console, emit_json, shown_path, theory_of
+
+if TYPE_CHECKING:
+    from ..minimal import Answer, ClaimResult, SearchResult
+
+
+def explored_fraction(*a):
+    from ..minimal import explored_fraction as f
+
+    return f(*a)
+
+
+def summarise(results):
+    from ..minimal import summarise as f
+
+    return f(results)
+
+
+def check_to_dict(*a):
+    from ..report import check_to_dict as f
+
+    return f(*a)
+
 
 STYLE = {"implied": "green", "contradictory": "green", "not implied": "red", "refused": "yellow",
          "unknown": "bright_black"}
@@ -77,6 +99,9 @@ def _ineq_name(r: SearchResult | Any) -> str:
 
 
 def run(args) -> int:
+    from ..catalog import resolve_inequality, versions
+    from ..minimal import find_for_many
+
     theory = theory_of(args)
     options = {"max_columns": args.max_columns}
     ineqs = []
@@ -450,6 +475,8 @@ def claim_to_dict(c: ClaimResult, pool: tuple[str, ...], theory_file: str, ineq)
 
 # -- claims ---------------------------------------------------------------------------
 def _run_claim(args, theory, ineqs, options) -> int:
+    from ..minimal import check_claim
+
     claimed = _names(args.claim)
     if not claimed:
         raise InputError("--claim needs at least one assumption name", hint="e.g. --claim absoluteness,agency-A")

@@ -5,10 +5,7 @@ from __future__ import annotations
 
 import argparse
 
-from ..catalog import load_catalog, resolve_inequality
-from ..compile import compile_bundle
 from ..errors import InputError, Where
-from ..inequality import Inequality, parse_inequality
 from ._common import add_match, add_output, emit_json, shown_path
 
 
@@ -41,9 +38,10 @@ def register(sub) -> None:
                        description="Compute the Born-rule behaviour of an experiment file, the value of each "
                                    "inequality (violations certified by exact or interval arithmetic, never by a "
                                    "bare float), and for each bundle whether the behaviour lies in its set, with "
-                                   "the critical visibility and a certified separating inequality. "
-                                   "Exit status 0 when some bundle's set is left (a quantum violation), "
-                                   "1 when none is, 2 on error.")
+                                   "the critical visibility and a certified separating inequality. Every value is that of the left "
+                                   "side as written, beside its bound and sense.\n\n"
+                                   "exit status: 0 some bundle's set is left (a quantum violation), 1 none is, "
+                                   "2 bad input or error")
     p.add_argument("experiment", help="experiment file (YAML)")
     p.add_argument("--theory", help="theory file to use instead of the experiment's own 'theory:'")
     p.add_argument("-i", "--inequality", action="append", default=[],
@@ -61,8 +59,9 @@ def register(sub) -> None:
     p.set_defaults(run=run)
 
 
-def load_inequality_file(scenario, path: str) -> list[Inequality]:
+def load_inequality_file(scenario, path: str) -> list:
     """Inequalities from a file: a list of expressions or of {name, text|expression}."""
+    from ..inequality import parse_inequality
     from ..yamlread import read_yaml_file
 
     data = read_yaml_file(path)
@@ -84,7 +83,10 @@ def load_inequality_file(scenario, path: str) -> list[Inequality]:
     return out
 
 
-def _inequalities(args, scenario, theory) -> list[Inequality]:
+def _inequalities(args, scenario, theory) -> list:
+    from ..catalog import load_catalog, resolve_inequality
+    from ..compile import compile_bundle
+
     out = []
     if args.inequality:
         out += [resolve_inequality(scenario, s, match=args.match) for s in args.inequality]
@@ -118,6 +120,7 @@ def _behaviour_table(scenario, fb, eb) -> list[str]:
 
 
 def run(args) -> int:
+    from ..compile import compile_bundle
     from ..theory import load_theory
     from ..quantum import behaviour, exact_behaviour, load_experiment
     from ..quantum.certify import evaluate

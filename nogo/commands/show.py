@@ -4,9 +4,6 @@ from __future__ import annotations
 
 import argparse
 
-from ..compile import compile_bundle
-from ..errors import InputError
-from ..report import plain_note
 from ._common import add_output, emit_json, shown_path, theory_of
 
 
@@ -24,6 +21,10 @@ def register(sub) -> None:
 
 
 def run(args) -> int:
+    from ..compile import compile_bundle
+    from ..errors import InputError
+    from ..report import plain_note
+
     th = theory_of(args)
     sizes = {}
     for b in th.bundles:

@@ -14,8 +14,9 @@ def register(sub) -> None:
                               "--plot sweep.png",
                        description="The largest weight v of the state, mixed with 1 - v of noise, at which the "
                                    "behaviour stays in the bundle's set (LP), the certified separating inequality "
-                                   "from the LP dual, and optionally a sweep with a plot. Exit status 0 when the "
-                                   "behaviour leaves the set, 1 when it stays inside, 2 on error.")
+                                   "from the LP dual, and optionally a sweep with a plot.\n\n"
+                                   "exit status: 0 the behaviour leaves the set, 1 it stays inside, 2 bad input "
+                                   "or error")
     p.add_argument("experiment", help="experiment file (YAML)")
     p.add_argument("bundle", help="bundle name, or assumption names joined by '+'")
     p.add_argument("--theory", help="theory file instead of the experiment's own")
