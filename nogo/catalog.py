@@ -180,16 +180,20 @@ def _mapping_words(parties, pmap, maps) -> list[str]:
 def versions(ineq: Inequality) -> list[Inequality]:
     """Every relabelled version of ``ineq`` (:func:`nogo.symmetry.orbit`), each shown in
     the notation and sense it was written in; numbers then refer to the text shown."""
-    from .notation import render
+    from .notation import render, render_text
     from .symmetry import orbit
 
-    out, seen = [], set()
+    out, seen, texts = [], set(), set()
     for k, v in enumerate(orbit(ineq)):
         if k == 0 and ineq.text:
             shown = ineq
         else:
             v = Inequality(v.scenario, v.coeffs, v.bound, v.name, "", v.source, v.marginals, ineq.sense,
                            ineq.shift, ineq.notation, ineq.origin)
+            text, exact = render_text(v)
+            if not exact and text in texts:  # the same version under the no-signalling reading
+                continue
+            texts.add(text)
             shown = render(v).inequality
         key = shown.canonical()
         if key in seen:  # versions equal under the no-signalling reading of their marginals

@@ -134,6 +134,16 @@ def _order(scenario: Scenario):
 
 def render(ineq: Inequality, notation: str | None = None) -> Rendered:
     """The inequality in ``notation`` (default: the one it was written in), with its own sense."""
+    text, exact = render_text(ineq, notation)
+    back = parse_inequality(ineq.scenario, text, ineq.name, ineq.source)
+    back.origin = ineq.origin
+    if exact and back.canonical() != ineq.canonical():  # a renderer bug must not change the question
+        raise AssertionError(f"rendering changed the inequality: {text}")
+    return Rendered(text, back, exact)
+
+
+def render_text(ineq: Inequality, notation: str | None = None) -> tuple[str, bool]:
+    """The text of :func:`render` without parsing it back, and whether it is exact."""
     sc = ineq.scenario
     notation = notation or ineq.notation or "probabilities"
     sign = ineq.sign
@@ -183,9 +193,4 @@ def render(ineq: Inequality, notation: str | None = None) -> Rendered:
             for a, v in zip(outs, row):
                 if v - mode:
                     parts.append((v - mode, f"p({' '.join(a)}|{' '.join(s)})"))
-    text = _join(parts, ineq.sense, rhs)
-    back = parse_inequality(sc, text, ineq.name, ineq.source)
-    back.origin = ineq.origin
-    if exact and back.canonical() != ineq.canonical():  # a renderer bug must not change the question
-        raise AssertionError(f"rendering changed the inequality: {text}")
-    return Rendered(text, back, exact)
+    return _join(parts, ineq.sense, rhs), exact

@@ -183,7 +183,8 @@ def _pairs():
                         entry.inequality(th.scenario)
                     except Exception:
                         continue
-                    yield pytest.param(path.name, bundle, name, id=f"{path.stem}-{bundle}-{name}")
+                    slow = (pytest.mark.slow,) if path.stem == "friends-2x4" else ()  # 100-230 s each
+                    yield pytest.param(path.name, bundle, name, id=f"{path.stem}-{bundle}-{name}", marks=slow)
 
 
 @pytest.mark.parametrize("theory_file,bundle,name", list(_pairs()))

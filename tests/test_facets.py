@@ -128,6 +128,7 @@ def test_local_friendliness_2x2_equals_bell(derived):
     assert len(lf.facets) == len(bell.facets) == 24  # Fine (1982); Froissart (1981)
 
 
+@pytest.mark.slow  # about 30 s: two 932-facet derivations
 def test_local_friendliness_equals_partly_determined(theory):
     # Literature on partially deterministic polytopes (from memory): the local-friendliness set
     # (3 settings, one read-out per lab) equals the set of mixtures of no-signalling behaviours

@@ -11,6 +11,7 @@ import itertools
 import json
 from fractions import Fraction
 from pathlib import Path
+import pytest
 
 from nogo.catalog import resolve_inequality
 from nogo.check import recheck
@@ -99,6 +100,7 @@ def test_search_agrees_with_brute_force(theory):
             assert direct.status == r.status_of(s), s
 
 
+@pytest.mark.slow  # about 21 s: a mixture model per subset
 def test_friends_2x2_with_hidden_variable(theory):
     # Pool: the three parts of local agency and absoluteness, plus a hidden
     # variable lam (background), lam-free (setting independence), local agency

@@ -247,6 +247,7 @@ def test_hardy_paradox_maximum(theory):
 
 
 # -- local friendliness ----------------------------------------------------------------
+@pytest.mark.slow  # about 45 s: derives the 932-facet polytope
 def test_genuine_local_friendliness_facet_is_violated(theory):
     # K.-W. Bong et al., Nature Physics 16, 1199 (2020), arXiv:1907.05607: quantum theory
     # violates local-friendliness inequalities that are not Bell inequalities.  One facet of
