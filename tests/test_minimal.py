@@ -11,6 +11,7 @@ import itertools
 import json
 from fractions import Fraction
 from pathlib import Path
+
 import pytest
 
 from nogo.catalog import resolve_inequality

@@ -109,3 +109,16 @@ def main_raise(argv):
 
     args = build_parser().parse_args(argv)
     return args.run(args)
+
+
+def test_cli_quantum_band_is_certified(capsys):
+    """Without an experiment: certified NPA half-planes outside; the PR ray is bounded by 1/sqrt(2)
+    (Tsirelson 1980; NPA 2007), and no inner point is claimed beyond the product behaviours."""
+    code = main(["slice", str(BELL), "uniform", "PR", "deterministic", "-b", "no-signalling", "--quantum",
+                 "--directions", "4", "--json"])
+    d = json.loads(capsys.readouterr().out)["quantum"]
+    assert code == 0 and len(d["outside"]) == 4
+    # along the PR ray (t = 0) each half-plane a s + b t <= c gives s <= c / a when a > 0
+    r = min(Fraction(h["at_most"]) / Fraction(h["a"]) for h in d["outside"] if Fraction(h["a"]) > 0)
+    assert 1 / math.sqrt(2) - 1e-9 < float(r) < 1 / math.sqrt(2) + 1e-6
+    assert all(p["source"].startswith("uniform or deterministic") for p in d["inside"])
