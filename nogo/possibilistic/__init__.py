@@ -21,7 +21,10 @@ from typing import Any
 
 from ..theory import Absolute, Counterfactual, Theory
 from .checker import check_model, check_proof
+from ..errors import InputError
 from .encode import Group, SupportSpace, build_space
+from .latent import latent_reading
+from .latentrun import decide_latent
 from .proof import Proof, build_proof
 from .propagate import largest_support, propagate
 from .render import to_latex, to_markdown
@@ -58,6 +61,7 @@ class PossibilisticResult:
     stats: dict[str, Any] = field(default_factory=dict)
     notes: list[str] = field(default_factory=list)
     zero_test: str = "declared"
+    facts_size: int = 0  # observed facts in the core (possible and impossible)
 
     @property
     def verdict(self) -> str:
@@ -79,7 +83,8 @@ class PossibilisticResult:
             d["core"] = {"facts_and_assumption_instances": self.core_names(),
                          "assumptions_needed": self.assumptions_needed(),
                          "size": len(self.core), "smallest_proven": self.smallest_proven,
-                         "lower_bound": self.lower_bound, "first_minimal_size": len(self.first_core)}
+                         "lower_bound": self.lower_bound,
+                         "first_minimal_size": self.stats.get("first_minimal_size", len(self.first_core))}
             d["proof"] = self.proof.to_dict() if self.proof else None
         else:
             d["model"] = [{"settings": list(s), "possible": [dict(zip(self.events, e)) for e in es]}
@@ -105,7 +110,7 @@ def _needed(theory: Theory, space: SupportSpace, core: list[Group]) -> list[str]
 
 
 def decide_pattern(theory: Theory, spec, pattern: SupportPattern, minimise: str = "smallest",
-                   time_limit: float | None = 30.0, solver: str = "g4") -> PossibilisticResult:
+                   time_limit: float | None = 30.0, solver: str = "g4", engine: str = "auto") -> PossibilisticResult:
     """Is the support *pattern* possible under the bundle *spec*?
 
     Parameters
@@ -130,6 +135,13 @@ def decide_pattern(theory: Theory, spec, pattern: SupportPattern, minimise: str 
     CP 2015 (smallest MUS); Hardy, PRL 71, 1665 (1993); Mermin, PRL 65,
     1838 (1990).
     """
+    if engine in ("auto", "latent"):
+        reading = latent_reading(theory, spec)
+        if reading is not None:
+            return decide_latent(theory, spec, pattern, reading, minimise, time_limit, solver, PossibilisticResult)
+        if engine == "latent":
+            raise InputError("this bundle is not Bell locality in the counterfactual form; the one-assignment "
+                             "reading does not apply", hint="use the default engine")
     t0 = time.monotonic()
     space = build_space(theory, spec, pattern)
     t_build = time.monotonic() - t0
