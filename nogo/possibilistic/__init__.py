@@ -28,7 +28,8 @@ from .latentrun import decide_latent
 from .proof import Proof, build_proof
 from .propagate import largest_support, propagate
 from .render import to_latex, to_markdown
-from .solve import Oracle, minimal_core, smallest_core
+from ..compile import present_events
+from .solve import Oracle, minimal_core, smallest_facts
 from .support import SupportPattern, load_pattern, load_pattern_text, support_from_behaviour
 
 __all__ = ["PossibilisticResult", "decide_pattern", "load_pattern", "load_pattern_text", "support_from_behaviour",
@@ -110,7 +111,8 @@ def _needed(theory: Theory, space: SupportSpace, core: list[Group]) -> list[str]
 
 
 def decide_pattern(theory: Theory, spec, pattern: SupportPattern, minimise: str = "smallest",
-                   time_limit: float | None = 30.0, solver: str = "g4", engine: str = "auto") -> PossibilisticResult:
+                   time_limit: float | None = 30.0, solver: str = "g4", engine: str = "auto",
+                   layer_limit: int | None = 20000) -> PossibilisticResult:
     """Is the support *pattern* possible under the bundle *spec*?
 
     Parameters
@@ -143,55 +145,130 @@ def decide_pattern(theory: Theory, spec, pattern: SupportPattern, minimise: str 
             raise InputError("this bundle is not Bell locality in the counterfactual form; the one-assignment "
                              "reading does not apply", hint="use the default engine")
     t0 = time.monotonic()
-    space = build_space(theory, spec, pattern)
-    t_build = time.monotonic() - t0
-    oracle = Oracle(space, solver)
+    layers = settings_layers(theory, spec, pattern, layer_limit)
+    for k, tuples in layers:
+        space = build_space(theory, spec, pattern, tuples)
+        oracle = Oracle(space, solver)
+        ok, res = oracle.solve([g.index for g in space.groups])
+        if not ok or tuples is None:
+            break
+        oracle.close()
     try:
-        all_groups = [g.index for g in space.groups]
-        ok, res = oracle.solve(all_groups)
+        return _finish(theory, spec, pattern, space, oracle, ok, res, k, layers, minimise, time_limit, solver, t0)
+    finally:
+        oracle.close()
+
+
+CROSS_CHECK_LIMIT = 20000
+
+
+def settings_layers(theory: Theory, spec, pattern: SupportPattern, limit: int | None):
+    """The parts of the model to try in turn: [(k, settings tuples or None = all)].
+
+    Layer k keeps the settings tuples in which at most k parties are away from
+    their first setting; it is closed under the hub maps of every independence
+    clause, so each kept instance has both its tuples.  Small models are
+    decided whole at once (*limit*: joint booleans; None = never split).
+    """
+    sc = theory.scenario
+    _, assumptions = theory.resolve(spec)
+    events = present_events(sc, assumptions)
+    sizes = {}
+    for s in sc.setting_tuples():
+        free = 1
+        for ev in events:
+            tied = (ev.kind == "latent" and s[sc.party_index(ev.party)] == ev.setting) or (
+                ev.kind == "inner" and s[sc.party_index(sc.observer(ev.name).lab)] == sc.observer(ev.name).read_out_at)
+            free *= 1 if tied else len(ev.outcomes)
+        sizes[s] = free
+    if limit is None or sum(sizes.values()) <= limit:
+        return [(len(sc.parties), None)]
+
+    def weight(s):
+        return sum(x != p.settings[0] for x, p in zip(s, sc.parties))
+
+    out = []
+    for k in range(1, len(sc.parties)):
+        out.append((k, [s for s in sc.setting_tuples() if weight(s) <= k]))
+    out.append((len(sc.parties), None))
+    return out
+
+
+def _finish(theory, spec, pattern, space, oracle, ok, res, k, layers, minimise, time_limit, solver, t0):
+    all_groups = [g.index for g in space.groups]
+    whole = k == layers[-1][0]
+    if space.n_vars <= CROSS_CHECK_LIMIT:  # two deciders, one answer (propagation is linear but slow in Python)
         prop = propagate(space, None, stop_at_conflict=True)
         if ok == prop.contradiction:
             raise RuntimeError("the SAT solver and unit propagation disagree; this is a bug in nogo")
-        stats: dict[str, Any] = {"joint_booleans": space.n_vars, "clauses": oracle.n_clauses,
-                                 "groups": len(space.groups), "build_seconds": round(t_build, 3)}
-        result = PossibilisticResult(not ok, space.label, space.names, space.scenario.party_names,
-                                     notes=list(space.notes), zero_test=pattern.zero_test)
+    stats: dict[str, Any] = {"reading": "joint assignments per settings tuple", "joint_booleans": space.n_vars,
+                             "clauses": oracle.n_clauses, "groups": len(space.groups),
+                             "settings_tuples": len(space.settings),
+                             "verdict_seconds": round(time.monotonic() - t0, 3)}
+    notes = list(space.notes)
+    if not whole:
+        notes.append(f"decided on the settings tuples with at most {k} parties away from their first setting "
+                     f"({len(space.settings)} of {len(space.scenario.setting_tuples())}); a contradiction there is "
+                     "one of the whole model, and smallest means smallest among proofs on those tuples")
+        stats["layer"] = k
+    result = PossibilisticResult(not ok, space.label, space.names, space.scenario.party_names,
+                                 notes=notes, zero_test=pattern.zero_test)
+    if ok:
+        full = propagate(space, None, stop_at_conflict=False)
+        model = largest_support(space, full)
+        bad = check_model(theory, spec, pattern, model)
+        if bad:
+            raise RuntimeError(f"the consistent model failed its independent check: {bad[0]}")
+        result.model = model
+    else:
+        first = res
+        if minimise in ("minimal", "smallest"):
+            first = minimal_core(oracle, res)
+        core, proven, lower = first, False, 0
+        if minimise == "smallest":
+            search = smallest_facts(theory, space, first, time_limit, solver)
+            wl = [] if search.witness is None else [search.witness]
+            inst = [g.index for g in space.groups if g.kind == "independent"]
+            core = _shrink_instances(oracle, search.facts + wl, inst)
+            proven, lower = search.proven, search.lower_bound
+            stats.update({"search_iterations": search.iterations, "search_seconds": round(search.seconds, 3),
+                          "witness_orbits": search.orbits, "symmetry_generators": search.symmetries})
+        result.core = [space.groups[g] for g in core]
+        result.needed = _needed(theory, space, result.core)
+        result.first_core = [space.groups[g] for g in first]
+        stats["first_minimal_size"] = sum(g.kind != "independent" for g in result.first_core)
+        result.facts_size = sum(g.kind != "independent" for g in result.core)
+        result.smallest_proven = proven
+        result.lower_bound = lower
+        proof = build_proof(space, core, theory.file or "")
+        for st in proof.steps:
+            if st.kind == "transfer":
+                st.says = theory.assumptions[st.assumption].says
+        proof.assumptions_used = tuple(result.needed)
+        proof.smallest = {"size": result.facts_size, "proven": proven, "lower_bound": lower,
+                          "searched": minimise == "smallest", "counts": "observed facts",
+                          "scope": "whole model" if whole else f"settings tuples with at most {k} parties moved"}
+        bad = check_proof(theory, spec, pattern, proof)
+        if bad:
+            raise RuntimeError(f"the proof failed its independent check: {bad[0]}")
+        result.proof = proof
+    stats["sat_calls"] = oracle.calls
+    stats["seconds"] = round(time.monotonic() - t0, 3)
+    result.stats = stats
+    return result
+
+
+def _shrink_instances(oracle: Oracle, facts: list[int], inst: list[int]) -> list[int]:
+    """Facts kept, assumption instances shrunk by deletion to those the contradiction needs."""
+    ok, res = oracle.solve(facts + inst)
+    if ok:
+        raise RuntimeError("a smallest set of facts is not contradictory; this is a bug in nogo")
+    keep = [g for g in inst if g in set(res)]
+    i = 0
+    while i < len(keep):
+        ok, res = oracle.solve(facts + keep[:i] + keep[i + 1:])
         if ok:
-            full = propagate(space, None, stop_at_conflict=False)
-            model = largest_support(space, full)
-            bad = check_model(theory, spec, pattern, model)
-            if bad:
-                raise RuntimeError(f"the consistent model failed its independent check: {bad[0]}")
-            result.model = model
+            i += 1
         else:
-            first = res
-            if minimise in ("minimal", "smallest"):
-                first = minimal_core(oracle, res)
-            core, proven, lower = first, False, 0
-            if minimise == "smallest":
-                search = smallest_core(oracle, space, first, time_limit)
-                core, proven, lower = search.smallest, search.proven, search.lower_bound
-                stats["search_iterations"] = search.iterations
-                stats["search_seconds"] = round(search.seconds, 3)
-            result.core = [space.groups[g] for g in core]
-            result.needed = _needed(theory, space, result.core)
-            result.first_core = [space.groups[g] for g in first]
-            result.smallest_proven = proven
-            result.lower_bound = lower
-            proof = build_proof(space, core, theory.file or "")
-            for st in proof.steps:
-                if st.kind == "transfer":
-                    st.says = theory.assumptions[st.assumption].says
-            proof.assumptions_used = tuple(result.needed)
-            proof.smallest = {"size": len(core), "proven": proven, "lower_bound": lower,
-                              "searched": minimise == "smallest"}
-            bad = check_proof(theory, spec, pattern, proof)
-            if bad:
-                raise RuntimeError(f"the proof failed its independent check: {bad[0]}")
-            result.proof = proof
-        stats["sat_calls"] = oracle.calls
-        stats["seconds"] = round(time.monotonic() - t0, 3)
-        result.stats = stats
-        return result
-    finally:
-        oracle.close()
+            keep = [g for g in keep[:i] + keep[i + 1:] if g in set(res)]
+    return sorted(facts + keep)
