@@ -117,6 +117,36 @@ def test_smallest_ghz_proof_is_proven_and_tight(n, bundle):
         assert check_model(th, bundle, sub, rs.model) == []
 
 
+def test_layered_local_friendliness_is_proven_smallest_through_the_bell_bound():
+    """n = 6: decided on part of the settings tuples; Bell locality's smallest (5) closes the gap."""
+    th = family_theory(6, "ABCDEF")
+    pat = ghz_xy_pattern(6)
+    r = decide_pattern(th, "local-friendliness", pat, time_limit=60)
+    assert r.stats.get("layer") is not None and r.stats["bell_local_lower_bound"] == 5
+    assert r.smallest_proven and r.facts_size == 5 and r.proof.smallest["scope"] == "whole model"
+    checked(th, "local-friendliness", pat, r)
+
+
+def test_bell_bound_applies_only_where_bell_models_are_models():
+    from nogo.possibilistic.bounds import bell_models_included
+    from nogo.theory import load_theory_text
+
+    th = family_theory(3, "ABC")
+    assert bell_models_included(th, "local-friendliness") and bell_models_included(th, "no-signalling")
+    assert not bell_models_included(th, "Bell-local")  # counterfactual outcomes: a different reading
+    odd = load_theory_text(family_theory_text_with_own_outcome(), "<odd>")
+    assert not bell_models_included(odd, "odd")
+
+
+def family_theory_text_with_own_outcome() -> str:
+    """Two parties plus a clause that keeps A's outcome while moving A's setting (not Bell-implied)."""
+    from nogo.possibilistic.families import family_theory_text
+
+    text = family_theory_text(2).replace(
+        "bundles:\n", "  own:\n    independent: {events: [A], of: [A.setting]}\nbundles:\n")
+    return text + "  odd: [own]\n"
+
+
 def test_hardy_smallest_proof_is_the_argument():
     th = load_theory(ROOT / "theories" / "bell-2x2.yaml")
     pat = load_pattern(ROOT / "examples" / "patterns" / "hardy.yaml", th.scenario)

@@ -20,6 +20,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from ..theory import Absolute, Counterfactual, Theory
+from .bounds import bell_lower_bound
 from .checker import check_model, check_proof
 from ..errors import InputError
 from .encode import Group, SupportSpace, build_space
@@ -231,6 +232,16 @@ def _finish(theory, spec, pattern, space, oracle, ok, res, k, layers, minimise, 
             inst = [g.index for g in space.groups if g.kind == "independent"]
             core = _shrink_instances(oracle, search.facts + wl, inst)
             proven, lower = search.proven, search.lower_bound
+            size = len(search.facts) + (search.witness is not None)
+            if not (proven and whole):  # borrow the bound of Bell locality (see .bounds)
+                bl = bell_lower_bound(theory, spec, pattern, time_limit)
+                stats["bell_local_lower_bound"] = bl
+                if bl is not None and bl > (lower if proven is False else 0):
+                    lower = max(lower, bl)
+                if bl is not None and bl >= size:
+                    proven, whole, lower = True, True, size
+                    notes.append(f"proven smallest over the whole model: every Bell-local model is a model of "
+                                 f"this bundle, and the smallest Bell-local proof also has {bl} facts")
             stats.update({"search_iterations": search.iterations, "search_seconds": round(search.seconds, 3),
                           "witness_orbits": search.orbits, "symmetry_generators": search.symmetries})
         result.core = [space.groups[g] for g in core]
