@@ -277,3 +277,36 @@ def test_cli_family_and_log(tmp_path):
     bad = subprocess.run(run + ["proof-family", "--parties", "3", "--states", "nothing"],
                          capture_output=True, text=True, cwd=ROOT)
     assert bad.returncode == 2 and "no state family" in bad.stderr
+
+
+def test_support_only_clause_hook():
+    """A clause kind stating only support-level independence (the coming "possibilistic independence")
+    is read like ``independent`` by the encoder and the checker; unknown kinds are refused clearly."""
+    import dataclasses
+
+    from nogo.errors import InputError
+    from nogo.theory import Assumption
+
+    @dataclasses.dataclass(frozen=True)
+    class SupportIndependent:  # stand-in for the theory layer's clause, which is not ours
+        events: tuple
+        of: tuple
+        support_only: bool = True
+
+    @dataclasses.dataclass(frozen=True)
+    class Unknown:
+        events: tuple
+
+    th = family_theory(3, "ABC")
+    for p in "ABC":
+        a = th.assumptions[f"agency-{p}"]
+        th.assumptions[a.name] = Assumption(a.name, (SupportIndependent(a.clauses[0].events, a.clauses[0].of),),
+                                            a.says, a.source, a.line)
+    pat = ghz_xy_pattern(3)
+    r = decide_pattern(th, "local-friendliness", pat)
+    assert r.contradiction and r.facts_size == 5
+    checked(th, "local-friendliness", pat, r)
+    a = th.assumptions["agency-A"]
+    th.assumptions["agency-A"] = Assumption(a.name, (Unknown(("B",)),), a.says, a.source, a.line)
+    with pytest.raises(InputError, match="not available"):
+        decide_pattern(th, "local-friendliness", pat)

@@ -22,6 +22,16 @@ from ..theory import Absolute, Counterfactual, Factorise, Hidden, Independent, P
 from .support import SupportPattern
 
 
+def _support_only(c):
+    """(events, of) of a clause that constrains supports as an independence of settings, else None
+    (``independent`` without ``given``, or a clause kind marked ``support_only``)."""
+    if isinstance(c, Independent):
+        return None if c.given else (c.events, c.of)
+    if getattr(c, "support_only", False) and hasattr(c, "events") and hasattr(c, "of"):
+        return tuple(c.events), tuple(c.of)
+    return None
+
+
 class _World:
     """Present events and their joint assignments, straight from the declarations."""
 
@@ -32,7 +42,8 @@ class _World:
         absolute, cf = set(), set()
         for a in self.assumptions:
             for c in a.clauses:
-                if isinstance(c, (Hidden, Factorise, Predetermined)) or (isinstance(c, Independent) and c.given):
+                if isinstance(c, (Hidden, Factorise, Predetermined)) or (isinstance(c, Independent) and c.given) or \
+                        not isinstance(c, (Absolute, Counterfactual, Independent)) and _support_only(c) is None:
                     raise ValueError(f"'{a.name}' has no possibilistic reading in this checker")
                 if isinstance(c, Absolute):
                     absolute.update(c.events)
@@ -210,19 +221,17 @@ def check_proof(theory: Theory, spec, pattern: SupportPattern, proof) -> list[st
             if a is None:
                 problems.append(f"{tag}: '{step.assumption}' is not an assumption of '{w.label}'")
                 return problems
-            if not (0 <= step.clause < len(a.clauses)) or not isinstance(a.clauses[step.clause], Independent):
-                problems.append(f"{tag}: clause {step.clause} of '{a.name}' is not an independence clause")
+            if not (0 <= step.clause < len(a.clauses)) or _support_only(a.clauses[step.clause]) is None:
+                problems.append(f"{tag}: clause {step.clause} of '{a.name}' is not an independence clause "
+                                "without hidden variables")
                 return problems
-            c = a.clauses[step.clause]
-            if c.given:
-                problems.append(f"{tag}: '{a.name}' holds only given hidden variables; it cannot transfer supports")
-                return problems
-            kept = {x for x in c.events if x in w.names}
+            c_events, c_of = _support_only(a.clauses[step.clause])
+            kept = {x for x in c_events if x in w.names}
             f = tuple(step.from_settings)
             if not w.valid_settings(f) or f == s:
                 problems.append(f"{tag}: {f} and {s} are not two different settings tuples")
                 return problems
-            moved = {w.parties.index(p) for p in c.of}
+            moved = {w.parties.index(p) for p in c_of}
             if any(f[j] != s[j] for j in range(len(s)) if j not in moved):
                 problems.append(f"{tag}: settings {f} and {s} differ in a party whose setting '{a.name}' does not name")
                 return problems
@@ -295,12 +304,13 @@ def check_model(theory: Theory, spec, pattern: SupportPattern, support: dict) ->
                 problems.append(f"the pattern says p({', '.join(a)} | {', '.join(s)}) = 0; the model shows it")
     for a in w.assumptions:
         for c in a.clauses:
-            if not isinstance(c, Independent):
+            if _support_only(c) is None:
                 continue
-            idx = [w.names.index(x) for x in c.events if x in w.names]
+            c_events, c_of = _support_only(c)
+            idx = [w.names.index(x) for x in c_events if x in w.names]
             if not idx:
                 continue
-            moved = {w.parties.index(p) for p in c.of}
+            moved = {w.parties.index(p) for p in c_of}
             settings = w.sc.setting_tuples()
             for s, t in itertools.combinations(settings, 2):
                 if any(s[j] != t[j] for j in range(n) if j not in moved):

@@ -139,6 +139,24 @@ _NO_READING = ("the possibilistic reading of '{kind}' (in assumption '{name}') i
                "(equivalent by Fine's theorem), or drop this assumption")
 
 
+def support_independence(c):
+    """(events, of) if clause *c* is read over supports as "the support of events does not
+    move with the settings of of", else None.
+
+    ``independent`` without ``given`` reads so (equal marginals have equal
+    supports).  Hook for a clause kind that states *only* the support-level
+    independence ("possibilistic independence"; being added to the theory
+    layer): any clause object with ``support_only = True`` and fields
+    ``events`` and ``of`` is read the same way here and in the checker.  The
+    linear backends must not read such a clause as equal marginals.
+    """
+    if isinstance(c, Independent):
+        return None if c.given else (c.events, c.of)
+    if getattr(c, "support_only", False) and hasattr(c, "events") and hasattr(c, "of"):
+        return tuple(c.events), tuple(c.of)
+    return None
+
+
 def check_readable(theory: Theory, assumptions) -> None:
     """Refuse, with a clear message, kinds that have no support reading here."""
     for a in assumptions:
@@ -152,6 +170,8 @@ def check_readable(theory: Theory, assumptions) -> None:
                 kind = "predetermined"
             elif isinstance(c, Independent) and c.given:
                 kind = "independent ... given"
+            elif not isinstance(c, (Absolute, Counterfactual, Independent)) and support_independence(c) is None:
+                kind = type(c).__name__
             if kind:
                 msg, hint = _NO_READING
                 raise InputError(msg.format(kind=kind, name=a.name), Where(theory.file, a.line, f"assumptions.{a.name}"), hint)
@@ -253,9 +273,11 @@ def build_space(theory: Theory, spec, pattern: SupportPattern, settings=None) ->
     var_ids = {t: [var[(t, e)] for e in joint[t]] for t in settings}
     for a in assumptions:
         for ci, c in enumerate(a.clauses):
-            if not isinstance(c, Independent):
+            reading = support_independence(c)
+            if reading is None:
                 continue
-            pr = project_independence(sc, c.events, c.of, names, a.name, notes)
+            c_events, c_of = reading
+            pr = project_independence(sc, c_events, c_of, names, a.name, notes)
             if pr is None:
                 continue
             kept, idx = pr.kept, pr.idx
@@ -276,7 +298,7 @@ def build_space(theory: Theory, spec, pattern: SupportPattern, settings=None) ->
                             m.setdefault(v if len(idx) > 1 else (v,), []).append(x)
                         marg[key] = m
                     side.update(marg[key])
-                g = Group(len(groups), "independent", s, (), base, a.name, ci, tuple(kept), tuple(c.of))
+                g = Group(len(groups), "independent", s, (), base, a.name, ci, tuple(kept), tuple(c_of))
                 groups.append(g)
                 buckets[g.index] = (left, right)
     return SupportSpace(sc, label, tuple(x.name for x in assumptions), tuple(events), settings, joint, var,

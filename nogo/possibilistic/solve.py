@@ -188,7 +188,7 @@ class FactSearch:
 def space_symmetries(space: SupportSpace, theory) -> list:
     """Pattern symmetries (uniform relabellings, party permutations) that also map the
     bundle's present events, read-out rules and independence clauses onto themselves."""
-    from ..theory import Independent  # noqa: PLC0415
+    from .encode import support_independence  # noqa: PLC0415
     from .symmetry import pattern_symmetries  # noqa: PLC0415
 
     sc = space.scenario
@@ -198,8 +198,9 @@ def space_symmetries(space: SupportSpace, theory) -> list:
     clauses = set()
     for a in space.assumptions:
         for c in theory.assumptions[a].clauses:
-            if isinstance(c, Independent):
-                clauses.add((frozenset(e for e in c.events if e in names), frozenset(c.of)))
+            r = support_independence(c)
+            if r is not None:
+                clauses.add((frozenset(e for e in r[0] if e in names), frozenset(r[1])))
 
     def rename(g, e):
         ev = next(x for x in space.events if x.name == e)
