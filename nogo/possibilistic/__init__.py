@@ -1,10 +1,15 @@
 """Possibilistic (probability-free) no-go arguments: supports, SAT, proofs.
 
-Flow: theory + bundle + support pattern → :func:`~.encode.build_space`
-(booleans "q(e|s) > 0", grouped constraints) → python-sat verdict and
-minimal / smallest unsatisfiable subsets (:mod:`.solve`) → a proof of
-numbered local steps (:mod:`.proof`) or the largest consistent support →
-re-checked by :mod:`.checker` → printed (:mod:`.render`).
+Flow: theory + bundle + support pattern → a reading over supports (for
+Bell locality one assignment per (party, setting), :mod:`.latent`; else
+booleans "q(e|s) > 0" per joint assignment, :func:`~.encode.build_space`,
+on growing layers of settings tuples when large) → python-sat verdict and
+minimal / smallest sets of facts (:mod:`.latent`, :mod:`.solve`,
+:mod:`.hitting`, :mod:`.bounds`) → a proof of numbered local steps
+(:mod:`.proof`, :mod:`.latentproof`) or a consistent support → re-checked by
+:mod:`.checker` → printed (:mod:`.render`); logs for SAT checkers in
+:mod:`.prooflog`; n-party families and automatic search in :mod:`.families`
+and :mod:`.hunt`.
 
 Public API::
 
@@ -19,17 +24,17 @@ import time
 from dataclasses import dataclass, field
 from typing import Any
 
+from ..compile import present_events
+from ..errors import InputError
 from ..theory import Absolute, Counterfactual, Theory
 from .bounds import bell_lower_bound
 from .checker import check_model, check_proof
-from ..errors import InputError
 from .encode import Group, SupportSpace, build_space
 from .latent import latent_reading
 from .latentrun import decide_latent
 from .proof import Proof, build_proof
 from .propagate import largest_support, propagate
 from .render import to_latex, to_markdown
-from ..compile import present_events
 from .solve import Oracle, minimal_core, smallest_facts
 from .support import SupportPattern, load_pattern, load_pattern_text, support_from_behaviour
 
@@ -124,6 +129,15 @@ def decide_pattern(theory: Theory, spec, pattern: SupportPattern, minimise: str 
     seconds), "minimal" (one minimal unsatisfiable subset) or "none"
     (the solver's core as it comes).
     time_limit: seconds for the smallest-subset search (None = no limit).
+    engine: "auto" (the one-assignment reading of :mod:`.latent` for Bell
+    locality in counterfactual form, else joint supports), "latent" or
+    "joint" (the direct encoding, also for Bell locality).
+    layer_limit: above this many joint booleans the joint reading is built
+    on growing layers of settings tuples (:func:`settings_layers`); None =
+    always whole.
+
+    Sizes count observed facts (possible and impossible); the assumption
+    instances a proof uses are listed in ``core`` beside them.
 
     Returns a :class:`PossibilisticResult`; its evidence (proof or model)
     has passed :func:`check_proof` / :func:`check_model`.

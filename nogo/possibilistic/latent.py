@@ -37,7 +37,7 @@ from dataclasses import dataclass, field
 
 from pysat.solvers import Solver
 
-from ..theory import Absolute, Counterfactual, Independent, Theory
+from ..theory import Counterfactual, Independent, Theory
 from .hitting import NO_PROOF, smallest_for_witness
 from .support import SupportPattern
 from .symmetry import orbit, pattern_symmetries
