@@ -24,7 +24,6 @@ import time
 from dataclasses import dataclass, field
 from typing import Any
 
-from ..compile import present_events
 from ..errors import InputError
 from ..theory import Absolute, Counterfactual, Theory
 from .bounds import bell_lower_bound
@@ -32,6 +31,7 @@ from .checker import check_model, check_proof
 from .encode import Group, SupportSpace, build_space
 from .latent import latent_reading
 from .latentrun import decide_latent
+from .layers import settings_layers
 from .proof import Proof, build_proof
 from .propagate import largest_support, propagate
 from .render import to_latex, to_markdown
@@ -161,7 +161,7 @@ def decide_pattern(theory: Theory, spec, pattern: SupportPattern, minimise: str 
                              "reading does not apply", hint="use the default engine")
     t0 = time.monotonic()
     layers = settings_layers(theory, spec, pattern, layer_limit)
-    for k, tuples in layers:
+    for k, tuples in layers:  # k: a Layer (what part of the model), tuples: its settings tuples
         space = build_space(theory, spec, pattern, tuples)
         oracle = Oracle(space, solver)
         ok, res = oracle.solve([g.index for g in space.groups])
@@ -177,41 +177,9 @@ def decide_pattern(theory: Theory, spec, pattern: SupportPattern, minimise: str 
 CROSS_CHECK_LIMIT = 20000
 
 
-def settings_layers(theory: Theory, spec, pattern: SupportPattern, limit: int | None):
-    """The parts of the model to try in turn: [(k, settings tuples or None = all)].
-
-    Layer k keeps the settings tuples in which at most k parties are away from
-    their first setting; it is closed under the hub maps of every independence
-    clause, so each kept instance has both its tuples.  Small models are
-    decided whole at once (*limit*: joint booleans; None = never split).
-    """
-    sc = theory.scenario
-    _, assumptions = theory.resolve(spec)
-    events = present_events(sc, assumptions)
-    sizes = {}
-    for s in sc.setting_tuples():
-        free = 1
-        for ev in events:
-            tied = (ev.kind == "latent" and s[sc.party_index(ev.party)] == ev.setting) or (
-                ev.kind == "inner" and s[sc.party_index(sc.observer(ev.name).lab)] == sc.observer(ev.name).read_out_at)
-            free *= 1 if tied else len(ev.outcomes)
-        sizes[s] = free
-    if limit is None or sum(sizes.values()) <= limit:
-        return [(len(sc.parties), None)]
-
-    def weight(s):
-        return sum(x != p.settings[0] for x, p in zip(s, sc.parties))
-
-    out = []
-    for k in range(1, len(sc.parties)):
-        out.append((k, [s for s in sc.setting_tuples() if weight(s) <= k]))
-    out.append((len(sc.parties), None))
-    return out
-
-
 def _finish(theory, spec, pattern, space, oracle, ok, res, k, layers, minimise, time_limit, solver, t0):
     all_groups = [g.index for g in space.groups]
-    whole = k == layers[-1][0]
+    whole = k.whole
     if space.n_vars <= CROSS_CHECK_LIMIT:  # two deciders, one answer (propagation is linear but slow in Python)
         prop = propagate(space, None, stop_at_conflict=True)
         if ok == prop.contradiction:
@@ -222,10 +190,10 @@ def _finish(theory, spec, pattern, space, oracle, ok, res, k, layers, minimise, 
                              "verdict_seconds": round(time.monotonic() - t0, 3)}
     notes = list(space.notes)
     if not whole:
-        notes.append(f"decided on the settings tuples with at most {k} parties away from their first setting "
-                     f"({len(space.settings)} of {len(space.scenario.setting_tuples())}); a contradiction there is "
-                     "one of the whole model, and smallest means smallest among proofs on those tuples")
-        stats["layer"] = k
+        notes.append(f"decided on the settings tuples {k.says} ({len(space.settings)} of "
+                     f"{len(space.scenario.setting_tuples())}); a contradiction there is one of the whole model, "
+                     "and smallest means smallest among proofs on those tuples")
+        stats["layer"] = k.says
     result = PossibilisticResult(not ok, space.label, space.names, space.scenario.party_names,
                                  notes=notes, zero_test=pattern.zero_test)
     if ok:
@@ -272,7 +240,7 @@ def _finish(theory, spec, pattern, space, oracle, ok, res, k, layers, minimise, 
         proof.assumptions_used = tuple(result.needed)
         proof.smallest = {"size": result.facts_size, "proven": proven, "lower_bound": lower,
                           "searched": minimise == "smallest", "counts": "observed facts",
-                          "scope": "whole model" if whole else f"settings tuples with at most {k} parties moved"}
+                          "scope": "whole model" if whole else f"settings tuples {k.says}"}
         bad = check_proof(theory, spec, pattern, proof)
         if bad:
             raise RuntimeError(f"the proof failed its independent check: {bad[0]}")
