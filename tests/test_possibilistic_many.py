@@ -310,3 +310,17 @@ def test_support_only_clause_hook():
     th.assumptions["agency-A"] = Assumption(a.name, (Unknown(("B",)),), a.says, a.source, a.line)
     with pytest.raises(InputError, match="not available"):
         decide_pattern(th, "local-friendliness", pat)
+
+
+def test_example_pattern_files():
+    """The shipped W-state facts are facts of the W state's exact support (Hardy-type argument,
+    arXiv:1506.01365); the three-party ladder file is the generated ladder."""
+    th = load_theory(ROOT / "theories" / "bell-3x2.yaml")
+    w = load_pattern(ROOT / "examples" / "patterns" / "w3-x1-z2.yaml", th.scenario)
+    exact = support_pattern(w_state(3), [("X", "Z")] * 3)
+    assert w.possible <= exact.possible and w.impossible <= exact.impossible
+    r = decide_pattern(th, "Bell-local", w)
+    assert r.contradiction and r.smallest_proven and r.facts_size == 4
+    checked(th, "Bell-local", w, r)
+    ladder = load_pattern(ROOT / "examples" / "patterns" / "hardy-ladder3.yaml", th.scenario)
+    assert (ladder.possible, ladder.impossible) == (hardy_ladder(3).possible, hardy_ladder(3).impossible)
