@@ -241,8 +241,9 @@ def test_refutation_log_is_checked_by_reverse_unit_propagation():
 # -- automatic search --------------------------------------------------------------------------
 def test_family_search_finds_and_ranks_ghz():
     cs = candidates(3, states=("ghz", "w"), bases=("X", "Y"), observers=("none", "all@1"))
-    res = hunt(cs)
+    res = hunt(cs, rank_by="smallest")
     assert res.complete and res.tried == len(cs)
+    assert all(h.proven and h.facts == 5 for h in res.contradictions)
     hits = res.contradictions
     assert hits and all(h.candidate.state == "ghz" for h in hits)  # W with X and Y only: no contradiction found
     assert [h.rank() for h in hits] == sorted(h.rank() for h in hits)
@@ -268,7 +269,7 @@ def test_cli_family_and_log(tmp_path):
     out = subprocess.run(run + ["proof-family", "--parties", "3", "--observers", "none,all@1"],
                          capture_output=True, text=True, cwd=ROOT)
     assert out.returncode == 0, out.stderr
-    assert "facts (minimal)" in out.stdout and "proven smallest" in out.stdout
+    assert "facts (smallest)" in out.stdout and "proven smallest" in out.stdout
     log = tmp_path / "log"
     out = subprocess.run(run + ["proof", "theories/bell-3x2.yaml", "Bell-local", "examples/patterns/ghz3-x1-y2.yaml",
                                 "--log", str(log)], capture_output=True, text=True, cwd=ROOT)

@@ -92,6 +92,9 @@ def register(sub) -> None:
     f.add_argument("--each-party", action="store_true",
                    help="let every party choose its bases separately (default: the same pair for all)")
     f.add_argument("--max-candidates", type=int, default=2000, help="cap on candidates (default 2000)")
+    f.add_argument("--rank-by", choices=("minimal", "smallest"), default=None,
+                   help="rank by one minimal proof per candidate, or by each one's smallest proof (default: "
+                        "smallest up to 5 parties, minimal beyond)")
     f.add_argument("--time-limit", type=float, default=120.0, help="seconds for the sweep (default 120)")
     f.add_argument("--proof-time-limit", type=float, default=20.0, help="seconds for the best one's smallest proof")
     f.add_argument("--workers", type=int, default=None, help="parallel workers through nogo.fanout (default: none)")
@@ -274,13 +277,16 @@ def run_family(args) -> int:
 
     cands = candidates(args.parties, split(args.states), split(args.bases), split(args.observers),
                        not args.each_party, args.max_candidates)
-    res = hunt(cands, args.workers, args.time_limit, keep=1, proof_time_limit=args.proof_time_limit)
+    rank_by = args.rank_by or ("smallest" if args.parties <= 5 else "minimal")
+    res = hunt(cands, args.workers, args.time_limit, keep=1, proof_time_limit=args.proof_time_limit, rank_by=rank_by)
     hits = res.contradictions
     if args.json:
         emit_json({"tried": res.tried, "candidates": len(cands), "complete": res.complete,
                    "seconds": round(res.seconds, 3),
+                   "ranked_by": rank_by,
                    "contradictions": [{"candidate": o.candidate.describe(), "bundle": o.candidate.bundle,
-                                       "minimal_facts": o.facts, "settings_tuples": o.settings_used,
+                                       "facts": o.facts, "proven_smallest": o.proven,
+                                       "settings_tuples": o.settings_used,
                                        "labs_with_observers": len(o.candidate.inner_labs)} for o in hits],
                    "best": [{"candidate": o.candidate.describe(), **r.to_dict()} for o, _, _, r in res.best]})
         return 0 if hits else 1
@@ -288,9 +294,10 @@ def run_family(args) -> int:
           f"{'' if res.complete else ' (stopped at the time limit)'}; {len(hits)} contradict their bundle.")
     if not hits:
         return 1
-    rows = [(o.candidate.describe(), o.candidate.bundle, str(o.facts), str(o.settings_used),
-             str(len(o.candidate.inner_labs))) for o in hits[:args.rows]]
-    _table(("candidate", "bundle", "facts (minimal)", "settings tuples", "labs with observers"), rows)
+    rows = [(o.candidate.describe(), o.candidate.bundle, str(o.facts) + ("" if o.proven or rank_by == "minimal"
+                                                                          else " (not proven)"),
+             str(o.settings_used), str(len(o.candidate.inner_labs))) for o in hits[:args.rows]]
+    _table(("candidate", "bundle", f"facts ({rank_by})", "settings tuples", "labs with observers"), rows)
     for o, th, pat, r in res.best:
         print()
         print(f"best: {o.candidate.describe()} — {_size_line(r)}")

@@ -57,23 +57,27 @@ class Outcome:
     settings_used: int = 0
     seconds: float = 0.0
     booleans: int = 0
-    error: str = ""
+    proven: bool = False  # facts is the proven smallest number
 
     def rank(self):
         return (self.facts, self.settings_used, len(self.candidate.inner_labs), self.candidate.describe())
 
 
-def evaluate(c: Candidate) -> Outcome:
-    """Decide one candidate (a minimal proof, checked); pure function of *c*."""
+def evaluate(item) -> Outcome:
+    """Decide one candidate (a checked proof: minimal, or smallest within a time limit).
+
+    *item*: a :class:`Candidate`, or (candidate, minimise, seconds); a pure function of it."""
     from . import decide_pattern  # noqa: PLC0415
 
+    c, minimise, limit = (item, "minimal", None) if isinstance(item, Candidate) else item
     t0 = time.monotonic()
     th = family_theory(c.n, c.inner_labs, c.read_out)
     pat = support_pattern(state_by_name(c.state, c.n), c.choice)
-    r = decide_pattern(th, c.bundle, pat, minimise="minimal")
+    r = decide_pattern(th, c.bundle, pat, minimise=minimise, time_limit=limit)
     used = {g.settings for g in r.core if g.kind != "independent"} if r.contradiction else set()
     return Outcome(c, r.contradiction, r.facts_size if r.contradiction else 0, len(used),
-                   time.monotonic() - t0, int(r.stats.get("joint_booleans", 0)))
+                   time.monotonic() - t0, int(r.stats.get("joint_booleans", 0)),
+                   proven=bool(r.contradiction and r.smallest_proven))
 
 
 def candidates(n: int, states=("ghz",), bases=("X", "Y"), observers=("none",), same_for_all: bool = True,
@@ -129,8 +133,13 @@ class HuntResult:
 
 
 def hunt(cands: list[Candidate], workers: int | None = None, time_limit: float | None = None, keep: int = 1,
-         proof_time_limit: float | None = 20.0) -> HuntResult:
-    """Decide every candidate (through :func:`fan_out`), rank, and minimise the best *keep* to smallest proofs."""
+         proof_time_limit: float | None = 20.0, rank_by: str = "minimal",
+         candidate_time_limit: float | None = 5.0) -> HuntResult:
+    """Decide every candidate (through :func:`fan_out`), rank, and minimise the best *keep* to smallest proofs.
+
+    rank_by: "minimal" (rank by the size of one minimal proof each, fast) or
+    "smallest" (each candidate's smallest proof, *candidate_time_limit* seconds each).
+    """
     from . import decide_pattern  # noqa: PLC0415
 
     t0 = time.monotonic()
@@ -141,7 +150,8 @@ def hunt(cands: list[Candidate], workers: int | None = None, time_limit: float |
         if time_limit is not None and time.monotonic() - t0 > time_limit:
             complete = False
             break
-        outcomes.extend(fan_out(evaluate, cands[i:i + step], workers))
+        items = [(c, rank_by, candidate_time_limit) for c in cands[i:i + step]]
+        outcomes.extend(fan_out(evaluate, items, workers))
     res = HuntResult(len(outcomes), outcomes, 0.0, complete)
     for o in res.contradictions[:keep]:
         c = o.candidate
