@@ -324,7 +324,7 @@ def smallest(ls: LatentSolver, pattern: SupportPattern, first: Verdict, time_lim
             proven = False
             lowers.append(bound)
             continue
-        ok, _ = ls.solve(list(range(len(ls.impossible))), w) if w is not None else (False, None)
+        ok, _ = ls.solve(list(range(len(ls.impossible))), w)
         if ok:
             continue  # this witness has a λ: no proof ends at it
         facts, low, done = _ihs(ls, w, best_size - extra, gens, deadline, iters)
