@@ -325,3 +325,24 @@ def test_example_pattern_files():
     checked(th, "Bell-local", w, r)
     ladder = load_pattern(ROOT / "examples" / "patterns" / "hardy-ladder3.yaml", th.scenario)
     assert (ladder.possible, ladder.impossible) == (hardy_ladder(3).possible, hardy_ladder(3).impossible)
+
+
+def test_time_limit_reports_best_proof_and_lower_bound():
+    th = family_theory(5)
+    pat = ghz_xy_pattern(5)
+    r = decide_pattern(th, "Bell-local", pat, minimise="smallest", time_limit=0)
+    assert r.contradiction and not r.smallest_proven
+    assert 1 <= r.lower_bound <= r.facts_size
+    checked(th, "Bell-local", pat, r)
+    from nogo.possibilistic import to_markdown
+
+    assert f"no proof with fewer than {r.lower_bound} exists" in to_markdown(r.proof)
+
+
+def test_observers_in_some_labs():
+    cs = candidates(3, observers=("2@1",))
+    assert all(c.inner_labs == ("A", "B") for c in cs)
+    res = hunt(cs)
+    assert res.contradictions  # GHZ with records in two labs: still a contradiction
+    with pytest.raises(Exception, match="not understood"):
+        candidates(3, observers=("7@1",))

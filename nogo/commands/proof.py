@@ -88,7 +88,8 @@ def register(sub) -> None:
     f.add_argument("--states", default="ghz", help="state families, e.g. ghz,w,ring,line,star (default ghz)")
     f.add_argument("--bases", default="X,Y", help="Pauli bases to assign to the two settings (default X,Y)")
     f.add_argument("--observers", default="none",
-                   help="which labs hold inner observers: none, all@1, all@2, first@1, first@2 (comma list)")
+                   help="which labs hold inner observers: none, all@1, all@2, first@1, first@2, K@1, K@2 "
+                        "(the first K labs; comma list)")
     f.add_argument("--each-party", action="store_true",
                    help="let every party choose its bases separately (default: the same pair for all)")
     f.add_argument("--max-candidates", type=int, default=2000, help="cap on candidates (default 2000)")

@@ -85,7 +85,7 @@ def candidates(n: int, states=("ghz",), bases=("X", "Y"), observers=("none",), s
     """Every candidate of the family, deduplicated, at most *max_candidates*.
 
     observers: any of "none" (Bell-local), "all@1", "all@2" (every lab, read out
-    at setting 1 or 2), "first@1" (lab A only).
+    at setting 1 or 2), "first@1" (lab A only), "K@1" / "K@2" (the first K labs).
     """
     party_names(n)
     for s in states:
@@ -107,8 +107,11 @@ def candidates(n: int, states=("ghz",), bases=("X", "Y"), observers=("none",), s
             obs_opts.append((labs, o[-1]))
         elif o in ("first@1", "first@2"):
             obs_opts.append((labs[:1], o[-1]))
+        elif o[:-2].isdigit() and o[-2:] in ("@1", "@2") and 1 <= int(o[:-2]) <= n:
+            obs_opts.append((labs[:int(o[:-2])], o[-1]))
         else:
-            raise InputError(f"observer option '{o}' is not understood", hint="none, all@1, all@2, first@1, first@2")
+            raise InputError(f"observer option '{o}' is not understood",
+                             hint="none, all@1, all@2, first@1, first@2, or K@1 / K@2 (the first K labs)")
     out = []
     for s in states:
         for ch in choices:
