@@ -291,8 +291,10 @@ def run_family(args) -> int:
                                        "labs_with_observers": len(o.candidate.inner_labs)} for o in hits],
                    "best": [{"candidate": o.candidate.describe(), **r.to_dict()} for o, _, _, r in res.best]})
         return 0 if hits else 1
-    print(f"{res.tried} of {len(cands)} candidates decided in {res.seconds:.1f} s"
-          f"{'' if res.complete else ' (stopped at the time limit)'}; {len(hits)} contradict their bundle.")
+    undecided = [o for o in res.outcomes if o.undecided]
+    print(f"{res.tried} of {len(cands)} candidates tried in {res.seconds:.1f} s"
+          f"{'' if res.complete else ' (stopped at the time limit)'}; {len(hits)} contradict their bundle"
+          f"{f'; {len(undecided)} undecided (model too large to call consistent)' if undecided else ''}.")
     if not hits:
         return 1
     rows = [(o.candidate.describe(), o.candidate.bundle, str(o.facts) + ("" if o.proven or rank_by == "minimal"

@@ -118,7 +118,7 @@ def _needed(theory: Theory, space: SupportSpace, core: list[Group]) -> list[str]
 
 def decide_pattern(theory: Theory, spec, pattern: SupportPattern, minimise: str = "smallest",
                    time_limit: float | None = 30.0, solver: str = "g4", engine: str = "auto",
-                   layer_limit: int | None = 20000) -> PossibilisticResult:
+                   layer_limit: int | None = 20000, max_booleans: int | None = 600000) -> PossibilisticResult:
     """Is the support *pattern* possible under the bundle *spec*?
 
     Parameters
@@ -135,6 +135,9 @@ def decide_pattern(theory: Theory, spec, pattern: SupportPattern, minimise: str 
     layer_limit: above this many joint booleans the joint reading is built
     on growing layers of settings tuples (:func:`settings_layers`); None =
     always whole.
+    max_booleans: refuse (InputError, no verdict) rather than build a part
+    of the joint model larger than this when no smaller part was
+    contradictory ("consistent" needs the whole model).
 
     Sizes count observed facts (possible and impossible); the assumption
     instances a proof uses are listed in ``core`` beside them.
@@ -162,6 +165,14 @@ def decide_pattern(theory: Theory, spec, pattern: SupportPattern, minimise: str 
     t0 = time.monotonic()
     layers = settings_layers(theory, spec, pattern, layer_limit)
     for k, tuples in layers:  # k: a Layer (what part of the model), tuples: its settings tuples
+        if max_booleans is not None and k.booleans > max_booleans:
+            tried = [layer.says for layer, t in layers if t is not None and layer.booleans <= max_booleans]
+            raise InputError(
+                f"no contradiction on the {len(tried)} parts of the model tried"
+                f"{' (the largest: the settings tuples ' + tried[-1] + ')' if tried else ''}, and the next part "
+                f"has {k.booleans} joint booleans, more than the limit of {max_booleans}: no verdict",
+                hint="a 'consistent' answer needs the whole model: raise the limit (max_booleans) if memory "
+                     "allows, or give fewer parties")
         space = build_space(theory, spec, pattern, tuples)
         oracle = Oracle(space, solver)
         ok, res = oracle.solve([g.index for g in space.groups])

@@ -58,6 +58,7 @@ class Outcome:
     seconds: float = 0.0
     booleans: int = 0
     proven: bool = False  # facts is the proven smallest number
+    undecided: str = ""  # why no verdict (the model was too large to call the pattern consistent)
 
     def rank(self):
         return (self.facts, self.settings_used, len(self.candidate.inner_labs), self.candidate.describe())
@@ -73,7 +74,10 @@ def evaluate(item) -> Outcome:
     t0 = time.monotonic()
     th = family_theory(c.n, c.inner_labs, c.read_out)
     pat = support_pattern(state_by_name(c.state, c.n), c.choice)
-    r = decide_pattern(th, c.bundle, pat, minimise=minimise, time_limit=limit)
+    try:
+        r = decide_pattern(th, c.bundle, pat, minimise=minimise, time_limit=limit)
+    except InputError as exc:  # too large to call consistent: undecided, not a crash of the sweep
+        return Outcome(c, False, seconds=time.monotonic() - t0, undecided=str(exc))
     used = {g.settings for g in r.core if g.kind != "independent"} if r.contradiction else set()
     return Outcome(c, r.contradiction, r.facts_size if r.contradiction else 0, len(used),
                    time.monotonic() - t0, int(r.stats.get("joint_booleans", 0)),

@@ -28,6 +28,7 @@ from .support import SupportPattern
 class Layer:
     says: str  # "in which only A, B, C move", "with at most 2 parties moved", "" (whole)
     whole: bool = False
+    booleans: int = 0  # joint booleans of this part
 
 
 def _weight(sc, s) -> int:
@@ -43,15 +44,16 @@ def settings_layers(theory: Theory, spec, pattern: SupportPattern, limit: int | 
     sc = theory.scenario
     _, assumptions = theory.resolve(spec)
     events = present_events(sc, assumptions)
-    size = 0
+    per: dict = {}
     for s in sc.setting_tuples():
         free = 1
         for ev in events:
             tied = (ev.kind == "latent" and s[sc.party_index(ev.party)] == ev.setting) or (
                 ev.kind == "inner" and s[sc.party_index(sc.observer(ev.name).lab)] == sc.observer(ev.name).read_out_at)
             free *= 1 if tied else len(ev.outcomes)
-        size += free
-    whole = [(Layer("", True), None)]
+        per[s] = free
+    size = sum(per.values())
+    whole = [(Layer("", True, size), None)]
     if limit is None or size <= limit:
         return whole
     n = len(sc.parties)
@@ -72,8 +74,9 @@ def settings_layers(theory: Theory, spec, pattern: SupportPattern, limit: int | 
             if score == 0:
                 break
             names = ", ".join(sc.party_names[j] for j in sub)
-            out.append((Layer(f"in which only {names} move"), part))
+            out.append((Layer(f"in which only {names} move", False, sum(per[s] for s in part)), part))
     for k in range(1, n):
-        out.append((Layer(f"with at most {k} parties away from their first setting"),
-                    [s for s in tuples if _weight(sc, s) <= k]))
+        part = [s for s in tuples if _weight(sc, s) <= k]
+        out.append((Layer(f"with at most {k} parties away from their first setting", False,
+                          sum(per[s] for s in part)), part))
     return out + whole
