@@ -346,3 +346,14 @@ def test_observers_in_some_labs():
     assert res.contradictions  # GHZ with records in two labs: still a contradiction
     with pytest.raises(Exception, match="not understood"):
         candidates(3, observers=("7@1",))
+
+
+def test_large_consistent_pattern_is_refused_not_hung():
+    from nogo.errors import InputError
+
+    th = family_theory(3, "ABC")
+    pat = support_pattern(w_state(3), [("X", "Y")] * 3)
+    whole = decide_pattern(th, "local-friendliness", pat)
+    assert not whole.contradiction and check_model(th, "local-friendliness", pat, whole.model) == []
+    with pytest.raises(InputError, match="no verdict"):
+        decide_pattern(th, "local-friendliness", pat, layer_limit=10, max_booleans=50)
