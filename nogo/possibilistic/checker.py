@@ -22,6 +22,16 @@ from ..theory import Absolute, Counterfactual, Factorise, Hidden, Independent, P
 from .support import SupportPattern
 
 
+def _support_only(c):
+    """(events, of) of a clause that constrains supports as an independence of settings, else None
+    (``independent`` without ``given``, or a clause kind marked ``support_only``)."""
+    if isinstance(c, Independent):
+        return None if c.given else (c.events, c.of)
+    if getattr(c, "support_only", False) and hasattr(c, "events") and hasattr(c, "of"):
+        return tuple(c.events), tuple(c.of)
+    return None
+
+
 class _World:
     """Present events and their joint assignments, straight from the declarations."""
 
@@ -32,7 +42,8 @@ class _World:
         absolute, cf = set(), set()
         for a in self.assumptions:
             for c in a.clauses:
-                if isinstance(c, (Hidden, Factorise, Predetermined)) or (isinstance(c, Independent) and c.given):
+                if isinstance(c, (Hidden, Factorise, Predetermined)) or (isinstance(c, Independent) and c.given) or \
+                        not isinstance(c, (Absolute, Counterfactual, Independent)) and _support_only(c) is None:
                     raise ValueError(f"'{a.name}' has no possibilistic reading in this checker")
                 if isinstance(c, Absolute):
                     absolute.update(c.events)
@@ -69,6 +80,69 @@ class _World:
                 if s[self.parties.index(party)] == x and e[pos[party]] != val:
                     return False
         return True
+
+    def is_assignment(self, s, e) -> bool:
+        return all(v in outs for (_, outs, _), v in zip(self.events, e)) and self._ok(s, e)
+
+    # -- case checks without enumerating every joint assignment ------------------
+    def _canon(self, s, cube):
+        """A cube at settings s over free variables: read-out rules tie an inner
+        record or a counterfactual outcome to its lab's outcome at s.  Returns a
+        dict {variable: value} or None when the cube cannot occur at s."""
+        out: dict[str, str] = {}
+        for k, v in cube:
+            if k not in self.names:
+                return None
+            name, outs, rule = self.events[self.names.index(k)]
+            if v not in outs:
+                return None
+            key, val = k, v
+            if rule is not None and rule[0] == "inner":
+                _, lab, ro, relabel, own = rule
+                pi = self.parties.index(lab)
+                if ro is not None and s[pi] == ro:
+                    key, val = lab, self.sc.parties[pi].outcomes[relabel[own.index(v)]]
+            elif rule is not None:
+                _, party, x = rule
+                if s[self.parties.index(party)] == x:
+                    key = party
+            if out.get(key, val) != val:
+                return None
+            out[key] = val
+        return out
+
+    def uncovered(self, s, cube, cubes) -> str | None:
+        """None when every joint assignment at s that matches *cube* matches one of
+        *cubes*; otherwise a partial assignment (as text) of runs left over.
+
+        An exact case split: branch on a variable some compatible cube fixes,
+        until a cube is implied or none is compatible (Quine's consensus-free
+        tautology check; no solver)."""
+        target = self._canon(s, cube)
+        if target is None:
+            return None
+        cands = [c for c in (self._canon(s, x) for x in cubes) if c is not None]
+        domain = {n: o for n, o, _ in self.events}
+
+        def walk(t, cs):
+            live = [c for c in cs if all(t.get(k, v) == v for k, v in c.items())]
+            if any(all(t.get(k) == v for k, v in c.items()) for c in live):
+                return None
+            if not live:
+                return ", ".join(f"{k}={v}" for k, v in t.items()) or "any values"
+            counts: dict[str, int] = {}
+            for c in live:
+                for k in c:
+                    if k not in t:
+                        counts[k] = counts.get(k, 0) + 1
+            var = max(sorted(counts), key=lambda k: counts[k])
+            for val in domain[var]:
+                gap = walk({**t, var: val}, live)
+                if gap is not None:
+                    return gap
+            return None
+
+        return walk(target, cands)
 
     def joint(self, s) -> list[tuple[str, ...]]:
         if s not in self._cache:
@@ -111,8 +185,8 @@ def check_proof(theory: Theory, spec, pattern: SupportPattern, proof) -> list[st
     if not proof.steps:
         return ["the proof has no steps"]
 
-    def covered(s, e, uses) -> bool:
-        return any(st == s and w.matches(e, cube) for u in uses for st, cube in established.get(u, []))
+    def cited(s, uses):
+        return [cube for u in uses for st, cube in established.get(u, []) if st == s]
 
     for i, step in enumerate(proof.steps):
         n = step.number
@@ -147,19 +221,17 @@ def check_proof(theory: Theory, spec, pattern: SupportPattern, proof) -> list[st
             if a is None:
                 problems.append(f"{tag}: '{step.assumption}' is not an assumption of '{w.label}'")
                 return problems
-            if not (0 <= step.clause < len(a.clauses)) or not isinstance(a.clauses[step.clause], Independent):
-                problems.append(f"{tag}: clause {step.clause} of '{a.name}' is not an independence clause")
+            if not (0 <= step.clause < len(a.clauses)) or _support_only(a.clauses[step.clause]) is None:
+                problems.append(f"{tag}: clause {step.clause} of '{a.name}' is not an independence clause "
+                                "without hidden variables")
                 return problems
-            c = a.clauses[step.clause]
-            if c.given:
-                problems.append(f"{tag}: '{a.name}' holds only given hidden variables; it cannot transfer supports")
-                return problems
-            kept = {x for x in c.events if x in w.names}
+            c_events, c_of = _support_only(a.clauses[step.clause])
+            kept = {x for x in c_events if x in w.names}
             f = tuple(step.from_settings)
             if not w.valid_settings(f) or f == s:
                 problems.append(f"{tag}: {f} and {s} are not two different settings tuples")
                 return problems
-            moved = {w.parties.index(p) for p in c.of}
+            moved = {w.parties.index(p) for p in c_of}
             if any(f[j] != s[j] for j in range(len(s)) if j not in moved):
                 problems.append(f"{tag}: settings {f} and {s} differ in a party whose setting '{a.name}' does not name")
                 return problems
@@ -172,11 +244,10 @@ def check_proof(theory: Theory, spec, pattern: SupportPattern, proof) -> list[st
                 if extra:
                     problems.append(f"{tag}: '{a.name}' says nothing of {extra}")
                     return problems
-                for e in w.joint(f):
-                    if w.matches(e, stt.cube) and not covered(f, e, step.uses):
-                        shown = ", ".join(f"{k}={v}" for k, v in zip(w.names, e))
-                        problems.append(f"{tag}: at {f} the run ({shown}) is not excluded by steps {step.uses}")
-                        return problems
+                gap = w.uncovered(f, tuple(stt.cube), cited(f, step.uses))
+                if gap is not None:
+                    problems.append(f"{tag}: at {f} the runs with ({gap}) are not excluded by steps {step.uses}")
+                    return problems
                 out.append((s, tuple(stt.cube)))
             established[n] = out
         elif step.kind == "contradiction":
@@ -191,11 +262,10 @@ def check_proof(theory: Theory, spec, pattern: SupportPattern, proof) -> list[st
                 cube = tuple(zip(w.parties, a))
             else:
                 cube = ()
-            for e in w.joint(s):
-                if w.matches(e, cube) and not covered(s, e, step.uses):
-                    shown = ", ".join(f"{k}={v}" for k, v in zip(w.names, e))
-                    problems.append(f"{tag}: the run ({shown}) at {s} is not excluded by steps {step.uses}")
-                    return problems
+            gap = w.uncovered(s, cube, cited(s, step.uses))
+            if gap is not None:
+                problems.append(f"{tag}: the runs with ({gap}) at {s} are not excluded by steps {step.uses}")
+                return problems
             return problems
         else:
             problems.append(f"{tag}: unknown step kind '{step.kind}'")
@@ -219,7 +289,7 @@ def check_model(theory: Theory, spec, pattern: SupportPattern, support: dict) ->
         if not es:
             problems.append(f"nothing happens at settings {s}")
         for e in es:
-            if len(e) != len(w.names) or e not in set(w.joint(s)):
+            if len(e) != len(w.names) or not w.is_assignment(s, e):
                 problems.append(f"{e} at {s} breaks a read-out rule or is not an assignment of {list(w.names)}")
         sets[s] = set(es)
     if problems:
@@ -234,12 +304,13 @@ def check_model(theory: Theory, spec, pattern: SupportPattern, support: dict) ->
                 problems.append(f"the pattern says p({', '.join(a)} | {', '.join(s)}) = 0; the model shows it")
     for a in w.assumptions:
         for c in a.clauses:
-            if not isinstance(c, Independent):
+            if _support_only(c) is None:
                 continue
-            idx = [w.names.index(x) for x in c.events if x in w.names]
+            c_events, c_of = _support_only(c)
+            idx = [w.names.index(x) for x in c_events if x in w.names]
             if not idx:
                 continue
-            moved = {w.parties.index(p) for p in c.of}
+            moved = {w.parties.index(p) for p in c_of}
             settings = w.sc.setting_tuples()
             for s, t in itertools.combinations(settings, 2):
                 if any(s[j] != t[j] for j in range(n) if j not in moved):

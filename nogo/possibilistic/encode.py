@@ -32,9 +32,10 @@ independence`` (equivalent by A. Fine, PRL 48, 291 (1982)).
 from __future__ import annotations
 
 import itertools
+import operator
 from dataclasses import dataclass, field
 
-from ..compile import present_events, project_independence, read_out_ok
+from ..compile import present_events, project_independence
 from ..errors import InputError, Where
 from ..scenario import EventVar, Scenario
 from ..theory import Absolute, Counterfactual, Factorise, Hidden, Independent, Predetermined, Theory
@@ -138,6 +139,24 @@ _NO_READING = ("the possibilistic reading of '{kind}' (in assumption '{name}') i
                "(equivalent by Fine's theorem), or drop this assumption")
 
 
+def support_independence(c):
+    """(events, of) if clause *c* is read over supports as "the support of events does not
+    move with the settings of of", else None.
+
+    ``independent`` without ``given`` reads so (equal marginals have equal
+    supports).  Hook for a clause kind that states *only* the support-level
+    independence ("possibilistic independence"; being added to the theory
+    layer): any clause object with ``support_only = True`` and fields
+    ``events`` and ``of`` is read the same way here and in the checker.  The
+    linear backends must not read such a clause as equal marginals.
+    """
+    if isinstance(c, Independent):
+        return None if c.given else (c.events, c.of)
+    if getattr(c, "support_only", False) and hasattr(c, "events") and hasattr(c, "of"):
+        return tuple(c.events), tuple(c.of)
+    return None
+
+
 def check_readable(theory: Theory, assumptions) -> None:
     """Refuse, with a clear message, kinds that have no support reading here."""
     for a in assumptions:
@@ -151,18 +170,62 @@ def check_readable(theory: Theory, assumptions) -> None:
                 kind = "predetermined"
             elif isinstance(c, Independent) and c.given:
                 kind = "independent ... given"
+            elif not isinstance(c, (Absolute, Counterfactual, Independent)) and support_independence(c) is None:
+                kind = type(c).__name__
             if kind:
                 msg, hint = _NO_READING
                 raise InputError(msg.format(kind=kind, name=a.name), Where(theory.file, a.line, f"assumptions.{a.name}"), hint)
 
 
-def build_space(theory: Theory, spec, pattern: SupportPattern) -> SupportSpace:
+def joint_at(sc: Scenario, events, s) -> list[tuple[str, ...]]:
+    """The joint assignments at s that obey the read-out rules (product order of the free events).
+
+    Only the events a read-out rule leaves free are enumerated; the tied ones
+    (an inner record or counterfactual outcome read out at s) are filled in.
+    """
+    pos = {ev.name: i for i, ev in enumerate(events)}
+    tied: dict[int, tuple[int, dict]] = {}  # event index -> (party event index, party outcome -> own value)
+    for i, ev in enumerate(events):
+        if ev.kind == "inner":
+            o = sc.observer(ev.name)
+            pi = sc.party_index(o.lab)
+            if o.read_out_at is not None and s[pi] == o.read_out_at:
+                party = sc.parties[pi]
+                tied[i] = (pos[o.lab], {party.outcomes[o.relabel[k]]: v for k, v in enumerate(o.outcomes)})
+        elif ev.kind == "latent":
+            pi = sc.party_index(ev.party)
+            if s[pi] == ev.setting:
+                tied[i] = (pos[ev.party], {v: v for v in ev.outcomes})
+    free = [i for i in range(len(events)) if i not in tied]
+    out = []
+    for vals in itertools.product(*(events[i].outcomes for i in free)):
+        e: list = [None] * len(events)
+        for i, v in zip(free, vals):
+            e[i] = v
+        good = True
+        for i, (src, m) in tied.items():
+            v = m.get(e[src])
+            if v is None:
+                good = False
+                break
+            e[i] = v
+        if good:
+            out.append(tuple(e))
+    return out
+
+
+def build_space(theory: Theory, spec, pattern: SupportPattern, settings=None) -> SupportSpace:
     """Read *spec* (bundle or assumption names) over supports, with *pattern*'s facts.
 
     Parameters
     ----------
     theory: a loaded theory; spec: a bundle name or assumption names
     (``theory.resolve``); pattern: the observed support pattern.
+
+    settings: restrict the model to these settings tuples (None = all).  A
+    restriction keeps the independence instances whose both tuples are kept;
+    it is a relaxation (a model of the whole restricts to one of the part),
+    so a contradiction found there is a contradiction of the whole.
 
     Returns a :class:`SupportSpace` whose groups are the pattern's facts
     (one per listed event) followed by one group per instance of every
@@ -182,46 +245,60 @@ def build_space(theory: Theory, spec, pattern: SupportPattern) -> SupportSpace:
     events = present_events(sc, assumptions)
     names = [e.name for e in events]
     n_party = len(sc.parties)
-    settings = sc.setting_tuples()
+    if settings is None:
+        settings = sc.setting_tuples()
+    else:
+        settings = [s for s in sc.setting_tuples() if s in set(settings)]
     joint: dict = {}
     var: dict = {}
     for s in settings:
-        joint[s] = []
-        for e in itertools.product(*(ev.outcomes for ev in events)):
-            if read_out_ok(sc, events, s, e):
-                joint[s].append(e)
-                var[(s, e)] = len(var) + 1
+        joint[s] = joint_at(sc, events, s)
+        for e in joint[s]:
+            var[(s, e)] = len(var) + 1
     groups: list[Group] = []
     fact_vars: dict[int, list[int]] = {}
     by_obs: dict = {}
     for s in settings:
         for e in joint[s]:
             by_obs.setdefault((s, e[:n_party]), []).append(var[(s, e)])
+    kept_s = set(settings)
     for kind, coords in (("impossible", pattern.impossible), ("possible", pattern.possible)):
-        for (s, a) in sorted(coords):
+        for (s, a) in sorted(c for c in coords if c[0] in kept_s):
             g = Group(len(groups), kind, s, a)
             groups.append(g)
             fact_vars[g.index] = by_obs.get((s, a), [])
     buckets: dict = {}
     notes: list[str] = []
+    marg: dict = {}
+    var_ids = {t: [var[(t, e)] for e in joint[t]] for t in settings}
     for a in assumptions:
         for ci, c in enumerate(a.clauses):
-            if not isinstance(c, Independent):
+            reading = support_independence(c)
+            if reading is None:
                 continue
-            pr = project_independence(sc, c.events, c.of, names, a.name, notes)
+            c_events, c_of = reading
+            pr = project_independence(sc, c_events, c_of, names, a.name, notes)
             if pr is None:
                 continue
             kept, idx = pr.kept, pr.idx
             for s in settings:
                 base = pr.base[s]
-                if base == s:
+                if base == s or base not in kept_s:
                     continue
                 left: dict = {}
                 right: dict = {}
                 for side, t in ((left, s), (right, base)):
-                    for e in joint[t]:
-                        side.setdefault(tuple(e[i] for i in idx), []).append(var[(t, e)])
-                g = Group(len(groups), "independent", s, (), base, a.name, ci, tuple(kept), tuple(c.of))
+                    key = (t, idx)
+                    if key not in marg:  # the marginal map at t, shared by every clause keeping idx
+                        get = operator.itemgetter(*idx)
+                        m: dict = {}
+                        ids = var_ids[t]
+                        for e, x in zip(joint[t], ids):
+                            v = get(e)
+                            m.setdefault(v if len(idx) > 1 else (v,), []).append(x)
+                        marg[key] = m
+                    side.update(marg[key])
+                g = Group(len(groups), "independent", s, (), base, a.name, ci, tuple(kept), tuple(c_of))
                 groups.append(g)
                 buckets[g.index] = (left, right)
     return SupportSpace(sc, label, tuple(x.name for x in assumptions), tuple(events), settings, joint, var,

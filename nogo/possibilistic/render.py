@@ -86,13 +86,15 @@ def to_markdown(proof: Proof, says: dict[str, str] | None = None) -> str:
         out.append("Read-out rules: " + "; ".join(proof.read_outs) + ".")
     if proof.smallest:
         sm = proof.smallest
+        what = sm.get("counts", "facts and assumption instances")
+        scope = "" if sm.get("scope") in (None, "whole model") else f" among proofs on {sm['scope']}"
         if sm.get("proven"):
-            out.append(f"This proof uses {sm['size']} facts and assumption instances, the fewest possible.")
+            out.append(f"This proof uses {sm['size']} {what}, the fewest possible{scope}.")
         elif sm.get("searched", True):
-            out.append(f"This proof uses {sm['size']} facts and assumption instances; NOT proven smallest "
-                       f"(search stopped at the time limit; lower bound {sm.get('lower_bound')}).")
+            out.append(f"This proof uses {sm['size']} {what}; NOT proven smallest: the search stopped at its time "
+                       f"limit, and no proof with fewer than {sm.get('lower_bound')} exists{scope}.")
         else:
-            out.append(f"This proof uses {sm['size']} facts and assumption instances, a minimal set "
+            out.append(f"This proof uses {sm['size']} {what}, a minimal set "
                        f"(no smaller proof was searched for).")
     out.append("")
     party_set = set(proof.parties)

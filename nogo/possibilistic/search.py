@@ -91,7 +91,7 @@ def evaluate_point(item) -> PointResult:
     exp = _variant(experiment, choice, candidates)
     pattern = support_from_experiment(exp, tolerance)
     r = decide_pattern(theory, spec, pattern, minimise="minimal")
-    return PointResult(choice, r.contradiction, len(r.core), pattern.zero_test)
+    return PointResult(choice, r.contradiction, r.facts_size, pattern.zero_test)
 
 
 def search(theory: Theory, spec, experiment, candidates: dict[str, Any], same_for_all: bool = False,

@@ -8,22 +8,20 @@ unsatisfiable answer returns a core of selectors.  From a core:
   turn and kept out when the rest stays unsatisfiable; the solver's core
   shrinks the set on each success): J. Marques-Silva, "Minimal
   unsatisfiability: models, algorithms and applications", ISMVL 2010;
-* a *smallest* one by implicit hitting sets (every unsatisfiable subset
-  hits every minimal correction set; the smallest hitting set of the
-  correction sets found so far that is unsatisfiable is a smallest MUS):
-  A. Ignatiev, A. Previti, M. Liffiton, J. Marques-Silva, "Smallest MUS
-  extraction with minimal hitting set dualization", CP 2015.  Hitting sets
-  come from pysat's Hitman (RC2 MaxSAT); correction sets are grown from the
-  largest support of the satisfiable part.  The search stops at a time
-  limit and says whether the smallest was proven.
+* a *smallest* set of observed facts (:func:`smallest_facts`; assumption
+  instances always available) by implicit hitting sets, one witness at a
+  time (:mod:`.hitting`; A. Ignatiev, A. Previti, M. Liffiton,
+  J. Marques-Silva, "Smallest MUS extraction with minimal hitting set
+  dualization", CP 2015), with correction sets read from small models and
+  their images under the symmetries of pattern and bundle.  The search
+  stops at a time limit and says whether the smallest was proven.
 """
 
 from __future__ import annotations
 
 import time
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
-from pysat.examples.hitman import Hitman
 from pysat.solvers import Solver
 
 from .encode import SupportSpace
@@ -81,92 +79,142 @@ def minimal_core(oracle: Oracle, core: list[int]) -> list[int]:
     return core
 
 
-def _satisfied(space: SupportSpace, model_true: set[int], g) -> bool:
-    if g.kind == "impossible":
-        return not any(x in model_true for x in space.fact_vars[g.index])
-    if g.kind == "possible":
-        return any(x in model_true for x in space.fact_vars[g.index])
-    left, right = space.buckets[g.index]
-    for v in set(left) | set(right):
-        if any(x in model_true for x in left.get(v, ())) != any(x in model_true for x in right.get(v, ())):
-            return False
-    return True
-
-
-def _grow(oracle: Oracle, space: SupportSpace, start: list[int], model: list[int]) -> list[int]:
-    """A maximal satisfiable superset of *start*; returns its complement (a correction set).
-
-    *model* satisfies the groups of *start*; every group it also satisfies
-    joins at once, the rest are tried one by one.
-    """
-    sat_set = set(start)
-
-    def absorb(m):
-        true = {lit for lit in m if 0 < lit <= oracle.base}
-        for g in space.groups:
-            if g.index not in sat_set and _satisfied(space, true, g):
-                sat_set.add(g.index)
-
-    absorb(model)
-    for g in space.groups:
-        if g.index in sat_set:
-            continue
-        ok, m = oracle.solve(sorted(sat_set | {g.index}))
-        if ok:
-            sat_set.add(g.index)
-            absorb(m)
-    return [g.index for g in space.groups if g.index not in sat_set]
-
-
+# -- smallest sets of facts (instances of assumptions always available) ----------------
 @dataclass
-class CoreSearch:
-    smallest: list[int]
-    proven: bool  # True when no smaller unsatisfiable subset exists
+class FactSearch:
+    witness: int | None  # group index of the possible fact the proof ends at (None: normalisation)
+    facts: list[int]  # impossible-fact group indices
+    proven: bool
     lower_bound: int
-    minimal_seen: int
     iterations: int
     seconds: float
-    first: list[int] = field(default_factory=list)
+    orbits: int = 0
+    symmetries: int = 0
 
 
-def smallest_core(oracle: Oracle, space: SupportSpace, start: list[int], time_limit: float | None) -> CoreSearch:
-    """Implicit-hitting-set search for a smallest unsatisfiable subset of groups.
+def space_symmetries(space: SupportSpace, theory) -> list:
+    """Pattern symmetries (uniform relabellings, party permutations) that also map the
+    bundle's present events, read-out rules and independence clauses onto themselves."""
+    from .encode import support_independence  # noqa: PLC0415
+    from .symmetry import pattern_symmetries  # noqa: PLC0415
 
-    Parameters
-    ----------
-    oracle: the solver; space: the groups; start: a known minimal core (the
-    upper bound); time_limit: seconds (None = no limit).
+    sc = space.scenario
+    pn = sc.party_names
+    gens = pattern_symmetries(sc, space.pattern, uniform=True)
+    names = set(space.names)
+    clauses = set()
+    for a in space.assumptions:
+        for c in theory.assumptions[a].clauses:
+            r = support_independence(c)
+            if r is not None:
+                clauses.add((frozenset(e for e in r[0] if e in names), frozenset(r[1])))
 
-    Returns a :class:`CoreSearch`: the smallest core found, whether it is
-    proven smallest, and the lower bound reached (the size of the last
-    hitting set, which every unsatisfiable subset must reach).
+    def rename(g, e):
+        ev = next(x for x in space.events if x.name == e)
+        j = pn[g.perm[pn.index(ev.party)]]
+        if ev.kind == "party":
+            return j
+        if ev.kind == "latent":
+            return f"{j}@{ev.setting}"
+        o = sc.observer(e)
+        others = [x for x in space.events if x.kind == "inner" and sc.observer(x.name).lab == j]
+        if len(others) != 1 or len([x for x in space.events if x.kind == "inner" and sc.observer(x.name).lab == ev.party]) != 1:
+            return None
+        o2 = sc.observer(others[0].name)
+        same = (o.read_out_at == o2.read_out_at and o.outcomes == o2.outcomes == sc.party(o.lab).outcomes
+                and o.relabel == o2.relabel == tuple(range(len(o.outcomes))))
+        return o2.name if same else None
+
+    out = []
+    for g in gens:
+        m = {e: rename(g, e) for e in space.names}
+        if any(v is None for v in m.values()):
+            continue
+        if any(ev.kind == "latent" for ev in space.events) and any(
+                g.outs[i][x] != g.outs[i][sc.parties[i].settings[0]] for i in range(len(pn)) for x in g.outs[i]):
+            continue
+        img = {(frozenset(m[e] for e in k), frozenset(pn[g.perm[pn.index(p)]] for p in of)) for k, of in clauses}
+        if img == clauses:
+            out.append(g)
+    return out
+
+
+def smallest_facts(theory, space: SupportSpace, first: list[int], time_limit: float | None,
+                   solver: str = "g4") -> FactSearch:
+    """Smallest set of observed facts that, with every assumption instance, is contradictory.
+
+    One witness (possible fact) per symmetry orbit, or normalisation; for each,
+    the implicit hitting-set loop of :mod:`.hitting` with correction sets read
+    from small models (the solver prefers "impossible").
     """
+    from .hitting import smallest_for_witness  # noqa: PLC0415
+    from .symmetry import orbit  # noqa: PLC0415
+
     t0 = time.monotonic()
-    best = list(start)
-    seen = 1
-    lower = 1
-    it = 0
-    with Hitman(htype="sorted") as hitman:
-        # the whole set minus any one group of a core is a (possibly
-        # non-minimal) seed; begin from an empty hitting set instead
-        while True:
-            if time_limit is not None and time.monotonic() - t0 > time_limit:
-                return CoreSearch(best, False, lower, seen, it, time.monotonic() - t0, start)
-            it += 1
-            hs = hitman.get()
-            if hs is None:
-                break
-            hs = sorted(hs)
-            lower = max(lower, len(hs))
-            if len(hs) >= len(best):
-                return CoreSearch(best, True, len(best), seen, it, time.monotonic() - t0, start)
-            ok, res = oracle.solve(hs)
-            if not ok:
-                seen += 1
-                best = minimal_core(oracle, res)
-                return CoreSearch(best, True, len(best), seen, it, time.monotonic() - t0, start)
-            mcs = _grow(oracle, space, hs, res)
-            if not mcs:  # everything is satisfiable: cannot happen with a core in hand
-                break
-            hitman.hit(mcs)
-    return CoreSearch(best, True, len(best), seen, it, time.monotonic() - t0, start)
+    deadline = None if time_limit is None else t0 + time_limit
+    inst = [g.index for g in space.groups if g.kind == "independent"]
+    imp = [g.index for g in space.groups if g.kind == "impossible"]
+    pos = [g.index for g in space.groups if g.kind == "possible"]
+    coord = {(g.settings, g.outcomes): g.index for g in space.groups if g.kind != "independent"}
+    gens = space_symmetries(space, theory)
+    small = Oracle(space, solver)
+    small.solver.set_phases([-v for v in range(1, small.base + 1)])
+    first_w = next((g for g in first if space.groups[g].kind == "possible"), None)
+    best_w, best = first_w, sorted(g for g in first if space.groups[g].kind == "impossible")
+    best_size = len(best) + (first_w is not None)
+
+    def gmap(g, gi):
+        if gi is None:
+            return None
+        grp = space.groups[gi]
+        return coord.get(g.fact((grp.settings, grp.outcomes)))
+
+    reps, seen = [], set()
+    for w in pos:
+        if w in seen:
+            continue
+        orb = orbit(w, gens, gmap, cap=100000) if gens else [w]
+        seen.update(x for x in orb if x is not None)
+        reps.append(w)
+    reps.append(None)
+    iters = [0]
+    proven, lowers = True, []
+    try:
+        for w in reps:
+            extra = 0 if w is None else 1
+            if best_size <= 1 + extra:
+                lowers.append(best_size)
+                continue
+            if deadline is not None and time.monotonic() > deadline:
+                proven = False
+                lowers.append(1 + extra)
+                continue
+            wl = [] if w is None else [w]
+            ok, _ = small.solve(inst + imp + wl)
+            if ok:
+                continue
+
+            def test(hs, wl=wl, w=w):
+                ok, m = small.solve(inst + hs + wl)
+                if not ok:
+                    return None
+                true = {lit for lit in m if 0 < lit <= small.base}
+                cs = [g for g in imp if any(x in true for x in space.fact_vars[g])]
+                sets = [cs]
+                for g in gens:  # images under generators that fix the witness
+                    if w is None or gmap(g, w) == w:
+                        im = [gmap(g, k) for k in cs]
+                        if all(k is not None for k in im):
+                            sets.append(im)
+                return sets
+
+            facts, low, done = smallest_for_witness(imp, test, best_size - extra, deadline, iters)
+            if facts is not None:
+                best_w, best, best_size = w, facts, len(facts) + extra
+            if not done:
+                proven = False
+            lowers.append(min(low + extra, best_size))
+    finally:
+        small.close()
+    lower = best_size if proven else min([best_size] + lowers)
+    return FactSearch(best_w, best, proven, lower, iters[0], time.monotonic() - t0, len(reps), len(gens))
