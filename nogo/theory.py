@@ -30,7 +30,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from .errors import InputError, Where, suggest
-from .scenario import Scenario, check_keys, scenario_from_yaml
+from .scenario import Scenario, check_keys, check_name, scenario_from_yaml
 from .yamlread import YList, YMap, read_yaml_file, read_yaml_text
 
 
@@ -264,6 +264,57 @@ def _parse_assumption(name: str, spec, amap: YMap, names: _Names) -> Assumption:
     return Assumption(name, tuple(clauses), str(spec.get("says", "")), str(spec.get("source", "")), w.line)
 
 
+# -- one namespace -------------------------------------------------------------------
+def _where_of(m, key, path: str, file: str | None) -> Where:
+    return m.where(key, path) if isinstance(m, YMap) else Where(file, None, path)
+
+
+def _namespace(data, amap, bmap, file: str | None) -> set[str]:
+    """Check that parties, inner observers, hidden variables, assumptions and bundles share one namespace.
+
+    Every name must be a valid name (:func:`nogo.scenario.check_name`) and no
+    two declarations may use the same one (a hidden variable declared by
+    several assumptions is one variable).  Latent outcomes ``A@x`` cannot
+    collide: '@' is reserved.  Returns the hidden variables' names.
+    """
+    seen: dict[str, tuple[str, Where]] = {}
+
+    def add(name: str, what: str, where: Where) -> None:
+        if name in seen:
+            other, ow = seen[name]
+            first = f"line {ow.line}" if ow.line is not None else "elsewhere"
+            raise InputError(f"'{name}' names both the {other} ({first}) and this {what}", where,
+                             "parties, inner observers, hidden variables, assumptions and bundles need "
+                             "names of their own")
+        seen[name] = (what, where)
+
+    sc = data["scenario"]
+    for name in sc.get("parties") or {}:
+        add(str(name), "party", _where_of(sc["parties"], name, f"scenario.parties.{name}", file))
+    inner = sc.get("inner_observers") or {}
+    for name in inner:
+        add(str(name), "inner observer", _where_of(inner, name, f"scenario.inner_observers.{name}", file))
+    hidden: set[str] = set()
+    for aname, spec in amap.items():
+        if isinstance(spec, dict) and "hidden" in spec:
+            w = _where_of(spec, "hidden", f"assumptions.{aname}.hidden", file)
+            h = spec["hidden"]
+            if isinstance(h, (list, dict)):
+                raise InputError("'hidden' names one hidden variable", w, "for example 'hidden: lam'")
+            h = check_name(h, w, "hidden variable")
+            if h not in hidden:
+                add(h, "hidden variable", w)
+                hidden.add(h)
+    for aname in amap:
+        w = _where_of(amap, aname, f"assumptions.{aname}", file)
+        add(check_name(aname, w, "assumption"), "assumption", w)
+    if isinstance(bmap, dict):
+        for bname in bmap:
+            w = _where_of(bmap, bname, f"bundles.{bname}", file)
+            add(check_name(bname, w, "bundle"), "bundle", w)
+    return hidden
+
+
 def theory_from_yaml(data, file: str | None = None, text: str = "") -> Theory:
     if not isinstance(data, dict):
         raise InputError("a theory file is a mapping with 'scenario', 'assumptions' and 'bundles'", Where(file, 1))
@@ -274,14 +325,11 @@ def theory_from_yaml(data, file: str | None = None, text: str = "") -> Theory:
     amap = data.get("assumptions") or YMap()
     if not isinstance(amap, dict):
         raise InputError("'assumptions' must be a mapping of names to constraints", data.where("assumptions", "assumptions"))
-    hidden = {str(spec["hidden"]) for spec in amap.values() if isinstance(spec, dict) and "hidden" in spec}
-    clash = hidden & set(scenario.all_event_names())
-    if clash:
-        raise InputError(f"hidden variable name(s) {sorted(clash)} clash with event names", Where(file))
+    bmap = data.get("bundles") or YMap()
+    hidden = _namespace(data, amap, bmap, file)
     names = _Names(scenario, hidden)
     assumptions = {str(n): _parse_assumption(str(n), spec, amap, names) for n, spec in amap.items()}
     bundles: dict[str, tuple[str, ...]] = {}
-    bmap = data.get("bundles") or YMap()
     if not isinstance(bmap, dict):
         raise InputError("'bundles' must be a mapping of names to lists of assumptions", data.where("bundles", "bundles"))
     for bname, members in bmap.items():
