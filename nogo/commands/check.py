@@ -6,6 +6,7 @@ from ..catalog import resolve_inequality
 from ..check import decide, recheck
 from ..compile import compile_bundle
 from ..report import check_to_dict, check_to_text
+from ..sizes import guard_bundle
 from ..symmetry import orbit
 from ._common import add_output, add_theory, emit_json, theory_of
 
@@ -29,8 +30,9 @@ def register(sub) -> None:
 
 def run(args) -> int:
     theory = theory_of(args)
+    guard_bundle(theory, args.bundle, max_columns=args.max_columns)  # sizes first, from the declaration
+    ineq = resolve_inequality(theory.scenario, args.inequality)  # every argument before any compile
     model = compile_bundle(theory, args.bundle, max_columns=args.max_columns)
-    ineq = resolve_inequality(theory.scenario, args.inequality)
     targets = orbit(ineq) if args.all_versions else [ineq]
     results = []
     for t in targets:
