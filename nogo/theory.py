@@ -347,8 +347,16 @@ def theory_from_yaml(data, file: str | None = None, text: str = "") -> Theory:
 
 
 def load_theory(path: str | Path) -> Theory:
-    """Read and validate a theory file."""
+    """Read and validate a theory file; a name such as ``bell-2x2`` finds a shipped theory."""
     p = Path(path)
+    if not p.exists():
+        from .shipped import shipped_theory, shipped_theory_names  # noqa: PLC0415
+
+        found = shipped_theory(str(path))
+        if found is None:
+            raise InputError("no such file", Where(str(path)),
+                             suggest(p.stem, shipped_theory_names()) if p.stem else None)
+        p = found
     data = read_yaml_file(p)
     return theory_from_yaml(data, str(path), p.read_text(encoding="utf-8"))
 
