@@ -54,10 +54,14 @@ def random_scenario(rng: random.Random) -> dict:
     for p in names:
         if rng.random() < 0.5:
             outs = parties[p]["outcomes"]
-            perm = outs[:]
-            rng.shuffle(perm)
-            inner[f"{p}_in"] = {"lab": p, "outcomes": outs, "read_out_at": rng.choice(parties[p]["settings"]),
-                                "relabel": dict(zip(outs, perm))}
+            if rng.random() < 0.3:  # an observer with more outcomes than the party shows: relabel is many-to-one
+                mine = ["u", "v", "w", "z"][:len(outs) + 1]
+                shown = outs + [rng.choice(outs)]
+            else:
+                mine, shown = outs, outs[:]
+                rng.shuffle(shown)
+            inner[f"{p}_in"] = {"lab": p, "outcomes": mine, "read_out_at": rng.choice(parties[p]["settings"]),
+                                "relabel": dict(zip(mine, shown))}
     return {"parties": parties, "inner": inner}
 
 
