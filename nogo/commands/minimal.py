@@ -338,7 +338,8 @@ def draw_lattices(results: list[SearchResult], path: str, theory_file: str = "")
     bg = f"   background: {', '.join(r.background)}" if r.background else ""
     fig.suptitle(f"{theory_file}\n{key}{bg}", fontsize=9)
     fig.tight_layout(rect=(0, 0.05, 1, 0.93))
-    fig.savefig(path)
+    from ..atomic import save_figure  # noqa: PLC0415 - atomic: the old file survives a failed write
+    save_figure(fig, path)
     plt.close(fig)
 
 

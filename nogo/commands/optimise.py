@@ -78,8 +78,8 @@ def run(args) -> int:
     v, = evaluate(opt.experiment, [ineq], want_exact=False)
     text = _yaml_of(opt.experiment, opt.values)
     if args.write:
-        with open(args.write, "w", encoding="utf-8") as fh:
-            fh.write(text)
+        from ..atomic import write_text  # noqa: PLC0415 - atomic: the old file survives a failed write
+        write_text(args.write, text)
     if args.json:
         emit_json({"inequality": ineq.display(), "bound": str(ineq.bound), "best": opt.value,
                    "starts": opt.values, "verdict": v.verdict, "evidence": v.evidence,

@@ -303,5 +303,6 @@ def plot_sweep(data: dict, path: str, title: str = "", critical: float | None = 
         ax.set_title(title)
     ax.legend(fontsize=8)
     fig.tight_layout()
-    fig.savefig(path)
+    from ..atomic import save_figure  # noqa: PLC0415 - atomic: the old file survives a failed write
+    save_figure(fig, path)
     plt.close(fig)
