@@ -252,7 +252,9 @@ def scenario_from_yaml(raw, file: str | None = None) -> Scenario:
         check_name(name, w, "inner observer")
         check_keys(spec, _INNER_KEYS, path)
         if str(name) in names:
-            raise InputError(f"'{name}' is already a party's name", w)
+            line = parties_raw.where(name).line if isinstance(parties_raw, YMap) else None
+            raise InputError(f"'{name}' names both the party (line {line}) and this inner observer", w,
+                             "parties, inner observers and hidden variables need names of their own")
         lab = spec.get("lab")
         if lab is None:
             raise InputError(f"inner observer '{name}' has no 'lab'", w, "name the party whose lab it sits in")

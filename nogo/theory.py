@@ -270,23 +270,31 @@ def _where_of(m, key, path: str, file: str | None) -> Where:
 
 
 def _namespace(data, amap, bmap, file: str | None) -> set[str]:
-    """Check that parties, inner observers, hidden variables, assumptions and bundles share one namespace.
+    """Check the names of a theory: every one valid, none used twice within its namespace.
 
-    Every name must be a valid name (:func:`nogo.scenario.check_name`) and no
-    two declarations may use the same one (a hidden variable declared by
-    several assumptions is one variable).  Latent outcomes ``A@x`` cannot
-    collide: '@' is reserved.  Returns the hidden variables' names.
+    Two namespaces, one for each place a name is read: event variables
+    (parties, inner observers, hidden variables; latent outcomes ``A@x``
+    cannot collide since '@' is reserved), read inside clauses; and
+    declarations (assumptions, bundles), read by ``Theory.resolve`` and the
+    command line.  Every name must be valid (:func:`nogo.scenario.check_name`);
+    a hidden variable declared by several assumptions is one variable; an
+    assumption may share the name of the hidden variable it declares
+    (``lam: {hidden: lam}``), since the two are never read in the same place.
+    Returns the hidden variables' names.
     """
-    seen: dict[str, tuple[str, Where]] = {}
+    seen: dict[tuple[str, str], tuple[str, Where]] = {}
+    space = {"party": "event", "inner observer": "event", "hidden variable": "event",
+             "assumption": "declaration", "bundle": "declaration"}
 
     def add(name: str, what: str, where: Where) -> None:
-        if name in seen:
-            other, ow = seen[name]
+        key = (space[what], name)
+        if key in seen:
+            other, ow = seen[key]
             first = f"line {ow.line}" if ow.line is not None else "elsewhere"
-            raise InputError(f"'{name}' names both the {other} ({first}) and this {what}", where,
-                             "parties, inner observers, hidden variables, assumptions and bundles need "
-                             "names of their own")
-        seen[name] = (what, where)
+            hint = ("parties, inner observers and hidden variables need names of their own"
+                    if space[what] == "event" else "assumptions and bundles need names of their own")
+            raise InputError(f"'{name}' names both the {other} ({first}) and this {what}", where, hint)
+        seen[key] = (what, where)
 
     sc = data["scenario"]
     for name in sc.get("parties") or {}:

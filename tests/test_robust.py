@@ -144,11 +144,11 @@ def test_reserved_characters_are_refused_in_every_kind_of_name(name):
 
 
 @pytest.mark.parametrize("edit,first,second", [
-    (lambda s: s.replace("  agency-inner:\n", "  A:\n").replace("agency-inner]", "A]"), "party", "assumption"),
-    (lambda s: s.replace("  no-signalling:", "  B_in:"), "inner observer", "bundle"),
+    (lambda s: s.replace("    B_in: {lab: B,", "    A: {lab: B,").replace("[A, A_in, B_in]", "[A, A_in]"), "party",
+     "inner observer"),
     (lambda s: s.replace("  local-friendliness:", "  absoluteness:", 1), "assumption", "bundle"),
 ])
-def test_one_namespace_for_events_assumptions_and_bundles(edit, first, second):
+def test_one_namespace_for_events_and_one_for_declarations(edit, first, second):
     with pytest.raises(InputError) as e:
         load_theory_text(edit(FRIENDS), "t.yaml")
     msg = e.value.message
