@@ -95,14 +95,22 @@ class Scenario:
         raise KeyError(name)
 
     def setting_tuples(self) -> list[tuple[str, ...]]:
+        self._guard_size()
         return list(itertools.product(*(p.settings for p in self.parties)))
 
     def outcome_tuples(self) -> list[tuple[str, ...]]:
+        self._guard_size()
         return list(itertools.product(*(p.outcomes for p in self.parties)))
 
     def coordinates(self) -> list[tuple[tuple[str, ...], tuple[str, ...]]]:
         """Full probability coordinates (settings, outcomes) in a fixed order."""
         return [(s, a) for s in self.setting_tuples() for a in self.outcome_tuples()]
+
+    def _guard_size(self) -> None:
+        """Refuse a scenario whose observed probabilities could not even be listed (nogo.sizes)."""
+        from .sizes import guard_coordinates  # noqa: PLC0415 - sizes imports nothing of ours at load
+
+        guard_coordinates(self)
 
     # -- event variables -------------------------------------------------
     def party_events(self) -> list[EventVar]:

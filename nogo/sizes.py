@@ -36,6 +36,8 @@ from .errors import ModelTooLarge, Where
 
 #: default largest model, in columns (unknowns); raised with --max-columns
 DEFAULT_MAX_COLUMNS = 200_000
+#: most observed probabilities p(outcomes|settings) a scenario may have, for any use; $NOGO_MAX_COORDINATES
+DEFAULT_MAX_COORDINATES = 2_000_000
 #: default largest NPA moment matrix side
 DEFAULT_MAX_MOMENT_SIDE = 400
 #: most operator words listed for an NPA level before merging
@@ -193,6 +195,20 @@ def guard_bundle(theory, spec, max_columns: int | None = None, **_) -> SizeEstim
             + blame(sc, assumptions, est.columns), where,
             _RAISE)
     return est
+
+
+def guard_coordinates(sc) -> None:
+    """Refuse a scenario with more observed probabilities than can be listed (any command, any stage)."""
+    n = math.prod(len(p.settings) * len(p.outcomes) for p in sc.parties)
+    if n <= DEFAULT_MAX_COORDINATES:  # the common case: no environment lookup
+        return
+    env = os.environ.get("NOGO_MAX_COORDINATES", "").replace("_", "").replace(",", "")
+    limit = int(env) if env.isdigit() else DEFAULT_MAX_COORDINATES
+    if n > limit:
+        raise ModelTooLarge(
+            f"the scenario is too large: {scenario_size(sc)} give {_big(n)} observed probabilities "
+            f"p(outcomes|settings) (limit {limit:,})", None,
+            "raise the limit with the environment variable NOGO_MAX_COORDINATES if you mean it")
 
 
 def scenario_size(sc) -> str:
