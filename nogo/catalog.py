@@ -204,11 +204,13 @@ def versions(ineq: Inequality) -> list[Inequality]:
 
 
 def catalog_dir() -> Path:
-    """The catalog folder: $NOGO_CATALOG, else the one beside the package."""
+    """The catalog folder: $NOGO_CATALOG, else the shipped one (package data, or the source tree's)."""
     env = os.environ.get("NOGO_CATALOG")
     if env:
         return Path(env)
-    return Path(__file__).resolve().parent.parent / "catalog"
+    from .shipped import shipped_dir  # noqa: PLC0415
+
+    return shipped_dir("catalog") or Path(__file__).resolve().parent.parent / "catalog"
 
 
 def _entries_from_file(path: Path) -> list[CatalogEntry]:

@@ -4,18 +4,71 @@ Each subcommand lives in its own module under :mod:`nogo.commands` and
 exposes ``register(subparsers)``; this file only discovers them, parses and
 maps errors to exit status 2 without a traceback.  Exit status: 0 for a
 positive answer (implied, consistent, confirmed), 1 for a negative one, 2 for
-bad input or an error.
+bad input or an error, 130 when interrupted (Ctrl-C).
+
+Ctrl-C at any moment prints ``nogo: interrupted`` and nothing else: while
+the command modules are imported and after the answer is printed a quiet
+handler ends the process at once; while a command runs, Ctrl-C raises
+KeyboardInterrupt so that ``finally`` blocks (e.g. the removal of a
+half-written temporary file in :mod:`nogo.atomic`) still run.
 """
 
 from __future__ import annotations
 
-import argparse
-import importlib
 import os
-import pkgutil
+import signal
 import sys
 
-from .errors import InputError
+
+def _quiet_exit(signum=None, frame=None):  # pragma: no cover - exercised in a subprocess
+    try:
+        os.write(2, b"\nnogo: interrupted\n")
+    finally:
+        os._exit(130)
+
+
+def _set_sigint(handler) -> None:
+    try:
+        signal.signal(signal.SIGINT, handler)
+    except (ValueError, OSError):  # not the main thread, or no signals here
+        pass
+
+
+def _started_as_program() -> bool:
+    arg0 = os.path.basename(sys.argv[0] if sys.argv else "")
+    return arg0 in ("nogo", "nogo.exe", "nogo-script.py") or (
+        arg0 == "__main__.py" and os.path.basename(os.path.dirname(sys.argv[0])) == "nogo")
+
+
+if _started_as_program():
+    # the first half second goes to imports; an interrupt there must not print a traceback
+    _set_sigint(_quiet_exit)
+
+import argparse  # noqa: E402
+import importlib  # noqa: E402
+import pkgutil  # noqa: E402
+
+from .errors import InputError  # noqa: E402
+
+
+def version() -> str:
+    """nogo's version: from the source tree's pyproject.toml when run from one, else the installed metadata."""
+    here = os.path.dirname(os.path.abspath(__file__))
+    pyproject = os.path.join(os.path.dirname(here), "pyproject.toml")
+    try:
+        with open(pyproject, encoding="utf-8") as fh:
+            text = fh.read()
+        if 'name = "nogo"' in text:
+            for line in text.splitlines():
+                if line.startswith("version") and "=" in line:
+                    return line.split("=", 1)[1].strip().strip('"\'')
+    except OSError:
+        pass
+    try:
+        from importlib.metadata import PackageNotFoundError, version as _meta  # noqa: PLC0415
+        return _meta("nogo")
+    except (ImportError, PackageNotFoundError):  # pragma: no cover
+        return "unknown"
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -24,6 +77,8 @@ def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="nogo",
         description="Decide, derive and check no-go theorems from declared scenarios and assumptions.")
+    parser.add_argument("--version", action="version", version=f"nogo {version()}",
+                        help="print nogo's version and stop")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
     for info in sorted(pkgutil.iter_modules(commands.__path__), key=lambda m: m.name):
         if info.name.startswith("_"):
@@ -34,13 +89,24 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def main(argv: list[str] | None = None) -> int:
-    parser = build_parser()
-    args = parser.parse_args(argv)
-    if not getattr(args, "run", None):
-        parser.print_help()
-        return 2
+    program = _started_as_program() and argv is None
     try:
-        return int(args.run(args) or 0)
+        args_list = sys.argv[1:] if argv is None else list(argv)
+        if args_list == ["--version"]:  # answer without importing the commands
+            print(f"nogo {version()}")
+            return 0
+        parser = build_parser()
+        args = parser.parse_args(args_list)
+        if not getattr(args, "run", None):
+            parser.print_help()
+            return 2
+        if program:
+            _set_sigint(signal.default_int_handler)
+        try:
+            return int(args.run(args) or 0)
+        finally:
+            if program:
+                _set_sigint(_quiet_exit)
     except InputError as exc:
         print(f"nogo: error: {exc}", file=sys.stderr)
         return 2
@@ -50,7 +116,16 @@ def main(argv: list[str] | None = None) -> int:
         os.dup2(devnull, sys.stdout.fileno())
         return 2
     except KeyboardInterrupt:
+        if program:
+            _set_sigint(_quiet_exit)  # a second Ctrl-C while we stop is just as quiet
         print("nogo: interrupted", file=sys.stderr)
+        return 130
+    except RecursionError:
+        print("nogo: error: the input is nested too deeply to process", file=sys.stderr)
+        return 2
+    except MemoryError:
+        print("nogo: error: out of memory; the model is too large for this machine "
+              "(see the size options of the command)", file=sys.stderr)
         return 2
     except Exception as exc:  # noqa: BLE001 - a user sees one line, developers set NOGO_DEBUG
         if os.environ.get("NOGO_DEBUG"):

@@ -200,6 +200,8 @@ def compile_linear(theory: Theory, spec: str | list[str]) -> LinearModel:
 
 def compile_bundle(theory: Theory, spec: str | list[str], **options) -> LinearModel:
     """Compile any bundle: the plain linear model, or the mixture model when needed."""
+    from .sizes import guard_bundle  # noqa: PLC0415 - size guard from the declaration, before anything is built
+    guard_bundle(theory, spec, **options)
     try:
         return compile_linear(theory, spec)
     except NotLinear:

@@ -35,10 +35,13 @@ class Where:
 class InputError(Exception):
     """Bad input: a declaration, an inequality or an option that cannot be used."""
 
+    #: longest message and hint kept (a value blown up by YAML aliases must not make a huge message)
+    MAX_TEXT = 1200
+
     def __init__(self, message: str, where: Where | None = None, hint: str | None = None):
-        self.message = message
+        self.message = _cut(str(message), self.MAX_TEXT)
         self.where = where or Where()
-        self.hint = hint
+        self.hint = _cut(str(hint), self.MAX_TEXT // 2) if hint is not None else None
         super().__init__(str(self))
 
     def __str__(self) -> str:
@@ -47,6 +50,10 @@ class InputError(Exception):
         if self.hint:
             text += f" ({self.hint})"
         return text
+
+
+def _cut(text: str, n: int) -> str:
+    return text if len(text) <= n else text[: n - 30] + f" … ({len(text) - n + 30} more characters)"
 
 
 class ModelTooLarge(InputError):

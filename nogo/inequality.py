@@ -189,6 +189,9 @@ class _Parser:
         m = _NUM.match(self.text, self.pos)
         if not m:
             return None
+        if re.search(r"/0+$", m.group()):  # 1/0: a slip of the user, not a crash
+            self.pos = m.start()
+            self.fail(f"'{m.group()}' divides by zero")
         self.pos = m.end()
         return _num(m.group())
 

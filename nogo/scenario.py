@@ -95,14 +95,22 @@ class Scenario:
         raise KeyError(name)
 
     def setting_tuples(self) -> list[tuple[str, ...]]:
+        self._guard_size()
         return list(itertools.product(*(p.settings for p in self.parties)))
 
     def outcome_tuples(self) -> list[tuple[str, ...]]:
+        self._guard_size()
         return list(itertools.product(*(p.outcomes for p in self.parties)))
 
     def coordinates(self) -> list[tuple[tuple[str, ...], tuple[str, ...]]]:
         """Full probability coordinates (settings, outcomes) in a fixed order."""
         return [(s, a) for s in self.setting_tuples() for a in self.outcome_tuples()]
+
+    def _guard_size(self) -> None:
+        """Refuse a scenario whose observed probabilities could not even be listed (nogo.sizes)."""
+        from .sizes import guard_coordinates  # noqa: PLC0415 - sizes imports nothing of ours at load
+
+        guard_coordinates(self)
 
     # -- event variables -------------------------------------------------
     def party_events(self) -> list[EventVar]:
@@ -131,6 +139,10 @@ class Scenario:
         return "\n".join(lines)
 
 
+#: characters a setting or outcome label cannot hold (latent names A@x, wildcards A@*, expressions)
+_LABEL_RESERVED = set("@*|,<>()[]{}⟨⟩")
+
+
 def _labels(raw, where: Where, what: str) -> tuple[str, ...]:
     from .yamlread import YList
 
@@ -142,9 +154,28 @@ def _labels(raw, where: Where, what: str) -> tuple[str, ...]:
         if isinstance(v, (dict, list)) or v is None or isinstance(v, bool):
             raise InputError(f"{what} must be plain labels, got {v!r}", w)
         out.append(outcome_label(v) if what == "outcomes" else str(v))
+        bad = sorted(set(out[-1]) & _LABEL_RESERVED) + (["a space"] if any(ch.isspace() for ch in out[-1]) else [])
+        if bad or not out[-1]:
+            raise InputError(f"{what[:-1]} label '{out[-1][:40]}' cannot be used: "
+                             + (f"it uses {', '.join(bad)}" if bad else "it is empty"), w,
+                             "labels are short plain values such as 1, 2, x, z or +1, -1")
     if len(set(out)) != len(out):
         raise InputError(f"{what} repeat a label: {out}", where)
     return tuple(out)
+
+
+def _relabel_map(raw, where: Where) -> dict[str, str]:
+    """The ``relabel`` mapping as outcome labels; booleans, lists and repeats refused."""
+    out: dict[str, str] = {}
+    for k, v in raw.items():
+        if isinstance(v, (bool, dict, list)) or v is None or isinstance(k, bool):
+            raise InputError(f"'relabel' sends '{k}' to {v!r}, which is not an outcome label", where,
+                             "write outcomes as plain labels such as +1, -1 or 0, 1")
+        lk = outcome_label(k)
+        if lk in out:
+            raise InputError(f"'relabel' names outcome '{lk}' twice", where)
+        out[lk] = outcome_label(v)
+    return out
 
 
 _PARTY_KEYS = {"settings", "outcomes", "says"}
@@ -158,6 +189,34 @@ def check_keys(m, allowed: set[str], path: str) -> None:
         if k not in allowed:
             w = m.where(k, f"{path}.{k}") if isinstance(m, YMap) else Where(key=f"{path}.{k}")
             raise InputError(f"unknown key '{k}'", w, suggest(str(k), sorted(allowed)))
+
+
+# -- names (one namespace; reserved characters) -------------------------------------
+#: characters the expression, event and latent syntax use; never part of a user's name
+RESERVED = set("@*+|<>,;:=()[]{}/\\.'\"`!?#&%$^~") | {"⟨", "⟩", "≤", "≥", "·"}
+
+
+def check_name(name, where: Where, what: str, dash: bool = True) -> str:
+    """A user's name for a party, observer, hidden variable, assumption or bundle, or an InputError.
+
+    A name is text that starts with a letter and continues with letters,
+    digits, '_' (and '-' where ``dash``); the characters of the expression
+    and latent syntax (``@ * + | < > ,`` spaces, ...) are refused so that a
+    name can never be read as something else (``A@2`` is A's counterfactual
+    outcome at setting 2).
+    """
+    if not isinstance(name, str):
+        kind = "a number" if isinstance(name, (int, float)) else type(name).__name__
+        raise InputError(f"the {what} name '{name}' is read as {kind}", where,
+                         "names are text starting with a letter; put quotes around it only if it is one")
+    extra = "_-" if dash else "_"
+    bad = sorted({ch for ch in name if not (ch.isalnum() or ch in extra)})
+    if not name or not name[0].isalpha() or bad:
+        shown = name if len(name) <= 40 else name[:40] + "…"
+        why = (f"it uses {', '.join(repr(c) for c in bad)}" if bad else "it does not start with a letter")
+        raise InputError(f"{what} name '{shown}' cannot be used: {why}", where,
+                         f"a name starts with a letter and uses letters, digits, {'_ and -' if dash else '_'}")
+    return name
 
 
 def scenario_from_yaml(raw, file: str | None = None) -> Scenario:
@@ -175,6 +234,7 @@ def scenario_from_yaml(raw, file: str | None = None) -> Scenario:
     for name, spec in parties_raw.items():
         path = f"scenario.parties.{name}"
         w = parties_raw.where(name, path)
+        check_name(name, w, "party", dash=False)
         if not isinstance(spec, dict):
             raise InputError("a party needs 'settings' and 'outcomes'", w)
         check_keys(spec, _PARTY_KEYS, path)
@@ -185,9 +245,7 @@ def scenario_from_yaml(raw, file: str | None = None) -> Scenario:
         outcomes = _labels(spec["outcomes"], spec.where("outcomes", f"{path}.outcomes"), "outcomes")
         if len(outcomes) < 2:
             raise InputError("a party needs at least two outcomes", spec.where("outcomes", f"{path}.outcomes"))
-        pname = str(name)
-        if not pname.replace("_", "").isalnum() or not pname[0].isalpha():
-            raise InputError(f"party name '{pname}' must start with a letter and use letters, digits, '_'", w)
+        pname = check_name(name, w, "party", dash=False)
         parties.append(Party(pname, settings, outcomes, _numeric(outcomes)))
     names = [p.name for p in parties]
     inner = []
@@ -199,9 +257,12 @@ def scenario_from_yaml(raw, file: str | None = None) -> Scenario:
         w = inner_raw.where(name, path)
         if not isinstance(spec, dict):
             raise InputError("an inner observer needs 'lab' and 'outcomes'", w)
+        check_name(name, w, "inner observer")
         check_keys(spec, _INNER_KEYS, path)
         if str(name) in names:
-            raise InputError(f"'{name}' is already a party's name", w)
+            line = parties_raw.where(name).line if isinstance(parties_raw, YMap) else None
+            raise InputError(f"'{name}' names both the party (line {line}) and this inner observer", w,
+                             "parties, inner observers and hidden variables need names of their own")
         lab = spec.get("lab")
         if lab is None:
             raise InputError(f"inner observer '{name}' has no 'lab'", w, "name the party whose lab it sits in")
@@ -229,7 +290,7 @@ def scenario_from_yaml(raw, file: str | None = None) -> Scenario:
             rw = spec.where("relabel", f"{path}.relabel")
             if not isinstance(relabel_raw, dict):
                 raise InputError("'relabel' maps each observer outcome to the party outcome it shows", rw)
-            m = {outcome_label(k): outcome_label(v) for k, v in relabel_raw.items()}
+            m = _relabel_map(relabel_raw, rw)
             rel = []
             for o in outs:
                 if o not in m:

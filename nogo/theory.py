@@ -30,7 +30,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from .errors import InputError, Where, suggest
-from .scenario import Scenario, check_keys, scenario_from_yaml
+from .scenario import Scenario, check_keys, check_name, scenario_from_yaml
 from .yamlread import YList, YMap, read_yaml_file, read_yaml_text
 
 
@@ -264,6 +264,65 @@ def _parse_assumption(name: str, spec, amap: YMap, names: _Names) -> Assumption:
     return Assumption(name, tuple(clauses), str(spec.get("says", "")), str(spec.get("source", "")), w.line)
 
 
+# -- one namespace -------------------------------------------------------------------
+def _where_of(m, key, path: str, file: str | None) -> Where:
+    return m.where(key, path) if isinstance(m, YMap) else Where(file, None, path)
+
+
+def _namespace(data, amap, bmap, file: str | None) -> set[str]:
+    """Check the names of a theory: every one valid, none used twice within its namespace.
+
+    Two namespaces, one for each place a name is read: event variables
+    (parties, inner observers, hidden variables; latent outcomes ``A@x``
+    cannot collide since '@' is reserved), read inside clauses; and
+    declarations (assumptions, bundles), read by ``Theory.resolve`` and the
+    command line.  Every name must be valid (:func:`nogo.scenario.check_name`);
+    a hidden variable declared by several assumptions is one variable; an
+    assumption may share the name of the hidden variable it declares
+    (``lam: {hidden: lam}``), since the two are never read in the same place.
+    Returns the hidden variables' names.
+    """
+    seen: dict[tuple[str, str], tuple[str, Where]] = {}
+    space = {"party": "event", "inner observer": "event", "hidden variable": "event",
+             "assumption": "declaration", "bundle": "declaration"}
+
+    def add(name: str, what: str, where: Where) -> None:
+        key = (space[what], name)
+        if key in seen:
+            other, ow = seen[key]
+            first = f"line {ow.line}" if ow.line is not None else "elsewhere"
+            hint = ("parties, inner observers and hidden variables need names of their own"
+                    if space[what] == "event" else "assumptions and bundles need names of their own")
+            raise InputError(f"'{name}' names both the {other} ({first}) and this {what}", where, hint)
+        seen[key] = (what, where)
+
+    sc = data["scenario"]
+    for name in sc.get("parties") or {}:
+        add(str(name), "party", _where_of(sc["parties"], name, f"scenario.parties.{name}", file))
+    inner = sc.get("inner_observers") or {}
+    for name in inner:
+        add(str(name), "inner observer", _where_of(inner, name, f"scenario.inner_observers.{name}", file))
+    hidden: set[str] = set()
+    for aname, spec in amap.items():
+        if isinstance(spec, dict) and "hidden" in spec:
+            w = _where_of(spec, "hidden", f"assumptions.{aname}.hidden", file)
+            h = spec["hidden"]
+            if isinstance(h, (list, dict)):
+                raise InputError("'hidden' names one hidden variable", w, "for example 'hidden: lam'")
+            h = check_name(h, w, "hidden variable")
+            if h not in hidden:
+                add(h, "hidden variable", w)
+                hidden.add(h)
+    for aname in amap:
+        w = _where_of(amap, aname, f"assumptions.{aname}", file)
+        add(check_name(aname, w, "assumption"), "assumption", w)
+    if isinstance(bmap, dict):
+        for bname in bmap:
+            w = _where_of(bmap, bname, f"bundles.{bname}", file)
+            add(check_name(bname, w, "bundle"), "bundle", w)
+    return hidden
+
+
 def theory_from_yaml(data, file: str | None = None, text: str = "") -> Theory:
     if not isinstance(data, dict):
         raise InputError("a theory file is a mapping with 'scenario', 'assumptions' and 'bundles'", Where(file, 1))
@@ -274,14 +333,11 @@ def theory_from_yaml(data, file: str | None = None, text: str = "") -> Theory:
     amap = data.get("assumptions") or YMap()
     if not isinstance(amap, dict):
         raise InputError("'assumptions' must be a mapping of names to constraints", data.where("assumptions", "assumptions"))
-    hidden = {str(spec["hidden"]) for spec in amap.values() if isinstance(spec, dict) and "hidden" in spec}
-    clash = hidden & set(scenario.all_event_names())
-    if clash:
-        raise InputError(f"hidden variable name(s) {sorted(clash)} clash with event names", Where(file))
+    bmap = data.get("bundles") or YMap()
+    hidden = _namespace(data, amap, bmap, file)
     names = _Names(scenario, hidden)
     assumptions = {str(n): _parse_assumption(str(n), spec, amap, names) for n, spec in amap.items()}
     bundles: dict[str, tuple[str, ...]] = {}
-    bmap = data.get("bundles") or YMap()
     if not isinstance(bmap, dict):
         raise InputError("'bundles' must be a mapping of names to lists of assumptions", data.where("bundles", "bundles"))
     for bname, members in bmap.items():
@@ -299,8 +355,16 @@ def theory_from_yaml(data, file: str | None = None, text: str = "") -> Theory:
 
 
 def load_theory(path: str | Path) -> Theory:
-    """Read and validate a theory file."""
+    """Read and validate a theory file; a name such as ``bell-2x2`` finds a shipped theory."""
     p = Path(path)
+    if not p.exists():
+        from .shipped import shipped_theory, shipped_theory_names  # noqa: PLC0415
+
+        found = shipped_theory(str(path))
+        if found is None:
+            raise InputError("no such file", Where(str(path)),
+                             suggest(p.stem, shipped_theory_names()) if p.stem else None)
+        p = found
     data = read_yaml_file(p)
     return theory_from_yaml(data, str(path), p.read_text(encoding="utf-8"))
 

@@ -33,9 +33,11 @@ def run(args) -> int:
     from ..check import decide, recheck
     from ..compile import compile_bundle
     from ..report import check_to_dict, check_to_text, q
+    from ..sizes import guard_bundle
 
     theory = theory_of(args)
-    ineq = resolve_inequality(theory.scenario, args.inequality, match=args.match)
+    guard_bundle(theory, args.bundle, max_columns=args.max_columns)  # sizes first, from the declaration
+    ineq = resolve_inequality(theory.scenario, args.inequality, match=args.match)  # every argument before any compile
     model = compile_bundle(theory, args.bundle, max_columns=args.max_columns)
     targets = versions(ineq) if args.all_versions else [ineq]
     results = []

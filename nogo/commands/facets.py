@@ -96,7 +96,8 @@ def run(args) -> int:
     if args.format != "text":
         text = export(r, args.format, "vertices" if args.vertices else "facets")
         if args.out:
-            Path(args.out).write_text(text)
+            from ..atomic import write_text  # noqa: PLC0415 - atomic: the old file survives a failed write
+            write_text(args.out, text)
             print(f"wrote {args.out}")
         else:
             sys.stdout.write(text)

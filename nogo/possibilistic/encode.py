@@ -241,6 +241,8 @@ def build_space(theory: Theory, spec, pattern: SupportPattern, settings=None) ->
     if tuple(pattern.parties) != sc.party_names:
         raise InputError(f"the pattern's parties {list(pattern.parties)} differ from the theory's {list(sc.party_names)}")
     label, assumptions = theory.resolve(spec)
+    from ..sizes import guard_bundle  # noqa: PLC0415 - one boolean per model column: same size guard
+    guard_bundle(theory, spec)
     check_readable(theory, assumptions)
     events = present_events(sc, assumptions)
     names = [e.name for e in events]

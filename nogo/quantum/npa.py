@@ -82,6 +82,8 @@ def level_words(scenario: Scenario, level: str) -> list[Word]:
         words = [()] + [(o,) for o in ops] + [(a, b) for a, b in itertools.combinations(ops, 2) if a[0] != b[0]]
     elif level.isdigit() and int(level) >= 1:
         k = int(level)
+        from ..sizes import guard_npa_words  # noqa: PLC0415 - size guard before listing words
+        guard_npa_words(len(ops), k, level, n)
         words = [()]
         for length in range(1, k + 1):
             words += list(itertools.product(ops, repeat=length))
@@ -94,6 +96,8 @@ def level_words(scenario: Scenario, level: str) -> list[Word]:
             continue
         seen.add(red)
         out.append(tuple(op for s in red for op in s))
+    from ..sizes import guard_moment_matrix  # noqa: PLC0415
+    guard_moment_matrix(len(out), level, n)
     return out
 
 
