@@ -199,7 +199,7 @@ def decide_implication(ctx: Context, claim: Claim, v: Verdict) -> None:
     bad = [r for r in results if r.implied != positive]
     for t, r in zip(targets, results):
         if not bad or r is bad[0]:
-            record(v, mid, t, r, "claim" if t is ineq else "version")
+            record(v, mid, t, r, "claim")
     b = bundle_text(claim.params["bundle"])
     n = len(targets)
     many = f"all {n} versions ({which}) of " if n > 1 else ""
