@@ -124,11 +124,15 @@ def preimage(model, behaviour: list[Fraction]) -> list[Fraction] | None:
         rhs.append(Fraction(p))
     fixed = LinearModel(model.scenario, model.label, model.assumptions, model.columns, rows, rhs,
                         list(model.sources) + [model.sources[0]] * len(behaviour), model.observe)
-    try:
-        opt = exact_optimum(fixed, [Fraction(0)] * len(model.columns))
-    except ExactFailure:
-        return None
-    return opt.point if point_violation(fixed, opt.point) is None else None
+    n = len(model.columns)
+    for cost in ([Fraction(0)] * n, [Fraction(-((j * 7919) % 11)) for j in range(n)]):
+        try:
+            opt = exact_optimum(fixed, cost)
+        except (ExactFailure, AttributeError, ValueError):  # the z3 fallback refuses a constant objective
+            continue
+        if point_violation(fixed, opt.point) is None:
+            return opt.point
+    return None
 
 
 def inside_check(v: Verdict, mid: str, model, points: list, role: str) -> bool:

@@ -142,17 +142,64 @@ def rebuild(theory, names: list[str], facts: list[tuple[tuple[str, ...], tuple[s
     return OwnModel([n for n, _, _ in ev], columns, index, rows, rhs, coord, len(coords))
 
 
-def pattern_facts(path: str, scenario) -> list[tuple[tuple[str, ...], tuple[str, ...]]]:
-    """The impossible facts of a pattern file, read with plain YAML (the checker's own reading)."""
-    import yaml
-
+def _outcome_set(raw, scenario, outs_all):
     from ..scenario import outcome_label
+
+    if raw is None or raw == []:
+        return set()
+    if raw == "rest":
+        return "rest"
+    if isinstance(raw, dict) and set(raw) == {"product"}:
+        want = Fraction(str(raw["product"]))
+        out = set()
+        for a in outs_all:
+            prod = Fraction(1)
+            for x in a:
+                prod *= Fraction(x)
+            if prod == want:
+                out.add(a)
+        return out
+    if isinstance(raw, list):
+        out = set()
+        for item in raw:
+            if isinstance(item, str):
+                item = item.replace(",", " ").split()
+            if not isinstance(item, list):
+                raise NotRebuilt(f"pattern entry {item!r} is not read by this checker")
+            out.add(tuple(outcome_label(x) for x in item))
+        return out
+    raise NotRebuilt(f"pattern entry {raw!r} is not read by this checker")
+
+
+def pattern_facts(path: str, scenario) -> list[tuple[tuple[str, ...], tuple[str, ...]]]:
+    """The impossible facts of a pattern file, read with plain YAML (the checker's own reading).
+
+    Understands outcome lists, ``rest``, ``{product: v}`` and ``unlisted``; anything else is
+    reported as not rebuilt rather than guessed.
+    """
+    import yaml
 
     with open(path, encoding="utf-8") as fh:
         data = yaml.safe_load(fh)
-    out = []
+    outs_all = list(itertools.product(*(p.outcomes for p in scenario.parties)))
+    possible, impossible = set(), set()
     for run in data.get("runs", []) or []:
-        s = tuple(str(x) for x in run.get("settings", []))
-        for a in run.get("impossible", []) or []:
-            out.append((s, tuple(outcome_label(x) for x in a)))
-    return out
+        raw_s = run.get("settings", [])
+        if isinstance(raw_s, str):
+            raw_s = raw_s.replace(",", " ").split()
+        s = tuple(str(x) for x in raw_s)
+        pos = _outcome_set(run.get("possible"), scenario, outs_all)
+        imp = _outcome_set(run.get("impossible"), scenario, outs_all)
+        if pos == "rest":
+            pos = set(outs_all) - imp
+        if imp == "rest":
+            imp = set(outs_all) - pos
+        possible |= {(s, a) for a in pos}
+        impossible |= {(s, a) for a in imp}
+    unlisted = str(data.get("unlisted", "open"))
+    if unlisted == "impossible":
+        for s in itertools.product(*(p.settings for p in scenario.parties)):
+            for a in outs_all:
+                if (s, a) not in possible:
+                    impossible.add((s, a))
+    return sorted(impossible)

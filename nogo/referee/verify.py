@@ -123,28 +123,54 @@ def _face(cl: _Claim, ch: dict) -> str:
     return f"facet: valid, set of dimension {d}, tight points spanning {d - 1}"
 
 
+def _int_rows(vectors: list[list[Fraction]]) -> tuple[list[list[int]], int]:
+    """The vectors over one common denominator, as Python integers."""
+    from math import lcm
+
+    den = 1
+    for v in vectors:
+        for x in v:
+            den = lcm(den, x.denominator)
+    return [[int(x * den) for x in v] for v in vectors], den
+
+
 def _facets(cl: _Claim, ch: dict) -> str:
+    import flint
+
     m = cl.model(ch["model"])
     verts = cl.inside.get("vertices", [])
     d = int(ch["dimension"])
     _dimension(cl, m, verts, d)
     coords = _coords(m.own)
+    V, vden = _int_rows(verts)
+    D = [[a - b for a, b in zip(row, V[0])] for row in V]  # differences to the first vertex
+    VM = flint.fmpz_mat(V)
     seen = set()
     for k, f in enumerate(ch["facets"]):
         q = f["inequality"]
         b = farkas(m, q, f["multipliers"])
         if b > F(q["bound"]):
             raise Broken(f"facet {k}: the multipliers prove only {b}")
-        c = _coord_vector(q, coords)
-        vals = [sum((x * y for x, y in zip(c, p)), F(0)) for p in verts]
-        tight = frozenset(i for i, v in enumerate(vals) if v == F(q["bound"]))
-        if len(tight) == len(verts):
+        (C,), cden = _int_rows([_coord_vector(q, coords) + [F(q["bound"])]])
+        vals = VM * flint.fmpz_mat([[x] for x in C[:-1]])
+        rhs = C[-1] * vden  # c·v <= bound  <=>  (cden c)·(vden v) <= cden bound vden
+        tight = []
+        for i in range(len(V)):
+            x = int(vals[i, 0])
+            if x > rhs:
+                raise Broken(f"facet {k} is broken by vertex {i}")
+            if x == rhs:
+                tight.append(i)
+        tight_set = frozenset(tight)
+        if len(tight) == len(V):
             raise Broken(f"facet {k} is tight on every vertex")
-        if affine_rank([verts[i] for i in sorted(tight)]) != d - 1:
+        rows = [[a - b for a, b in zip(D[i], D[tight[0]])] for i in tight[1:]]
+        r = flint.fmpz_mat(rows).rank() if rows else 0
+        if r != d - 1:
             raise Broken(f"facet {k} ({q['text'][:50]}) is not tight on a facet's worth of vertices")
-        if tight in seen:
+        if tight_set in seen:
             raise Broken(f"facet {k} repeats another facet")
-        seen.add(tight)
+        seen.add(tight_set)
     if len(seen) != int(ch["count"]):
         raise Broken(f"the evidence lists {len(seen)} facets but counts {ch['count']}")
     return f"{len(seen)} distinct facets, each valid and tight on {d} affinely independent vertices"
