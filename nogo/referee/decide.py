@@ -36,6 +36,7 @@ class Context:
         self.theories: dict[str, Any] = {}
         self.models: dict[tuple, tuple[Any, list[str], str]] = {}
         self.facet_results: dict[tuple, Any] = {}
+        self.evidence: dict[tuple, list] = {}  # evidence shared by claims about the same object
 
     def theory(self, path: str):
         from ..theory import load_theory
@@ -489,15 +490,21 @@ def decide_facet_count(ctx: Context, claim: Claim, v: Verdict) -> None:
         v.status, v.summary = "NOT DECIDED", f"the derivation stopped with {n} facets found (partial)"
         v.account = "The facet derivation did not finish; the count is a lower bound only."
         return
-    _affine_evidence(v, ctx, claim, res, mid, model)
-    inside_check(v, mid, model, res.vertices, "vertices")
-    facets = []
-    for f in res.polytope.facets:
-        t = _ineq_of(res, f)
-        r = decided(model, t, guard=False)
-        facets.append({"inequality": ineq_record(t), "multipliers": sparse(r.certificate.duals)})
-    v.checks.append({"type": "facets", "role": "claim", "model": mid, "dimension": res.dim, "facets": facets,
-                     "count": n})
+    key = ("facet list", claim.theory, mid)
+    if key not in ctx.evidence:  # the same set counted by several claims: certify its facets once
+        before = len(v.checks)
+        _affine_evidence(v, ctx, claim, res, mid, model)
+        inside_check(v, mid, model, res.vertices, "vertices")
+        facets = []
+        for f in res.polytope.facets:
+            t = _ineq_of(res, f)
+            r = decided(model, t, guard=False)
+            facets.append({"inequality": ineq_record(t), "multipliers": sparse(r.certificate.duals)})
+        v.checks.append({"type": "facets", "role": "claim", "model": mid, "dimension": res.dim, "facets": facets,
+                         "count": n})
+        ctx.evidence[key] = v.checks[before:]
+    else:
+        v.checks.extend(ctx.evidence[key])
     v.checks.append({"type": "trusted", "role": "hull", "what": f"no facet beyond these {n}; {k} classes under "
                      f"the symmetries {', '.join(res.symmetries) or '(none)'}",
                      "why": "exact hull (cddlib, fractions) and union-find over the symmetry moves in the deciding "

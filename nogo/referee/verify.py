@@ -309,6 +309,14 @@ def check_claim_file(folder: Path, name: str, theories: dict) -> ClaimReport:
             rep.failures.append(f"check {i} ({t}, {ch.get('role')}): {exc}")
         except (KeyError, TypeError, ValueError, ZeroDivisionError) as exc:
             rep.failures.append(f"check {i} ({t}, {ch.get('role')}): malformed evidence ({type(exc).__name__}: {exc})")
+    for mid in doc.get("models", {}):  # every model the evidence carries must follow from the declarations
+        if mid not in cl.models:
+            try:
+                cl.model(mid)
+            except NotRebuilt as exc:
+                rep.uncovered.append(f"model {mid}: {exc}")
+            except Broken as exc:
+                rep.failures.append(f"model {mid}: {exc}")
     if not rep.failures:
         try:
             _conclusion(cl, rep)
