@@ -340,12 +340,15 @@ def _attach_coords(cl: _Claim, ch: dict) -> None:
         raise Broken("the behaviour has the wrong number of entries for the scenario")
 
 
-def verify_bundle(folder: str | Path) -> BundleReport:
+def verify_bundle(folder: str | Path, only: list[str] | None = None) -> BundleReport:
+    """Re-verify the bundle in *folder* (the manifest always; the claims in *only*, or all)."""
     folder = Path(folder)
     man, bad = _manifest(folder)
     theories: dict = {}
     reports = []
     for c in man.get("claims", []):
+        if only is not None and c["id"] not in only:
+            continue
         p = folder / c["file"]
         if not p.is_file():
             reports.append(ClaimReport(c["id"], c.get("verdict", "?"), failures=[f"evidence file {c['file']} is missing"]))
