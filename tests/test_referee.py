@@ -305,6 +305,33 @@ def test_removed_file_and_changed_hash_rejected(bundle, tmp_path, kind):
     assert any("altered" in b for b in bad) and any("bundle hash" in b for b in bad), bad
 
 
+def test_mixture_evidence_rebuilt_and_tampering_rejected(bundle, tmp_path):
+    """Fine's claim uses a hidden-variable model: the checker rebuilds its responses itself."""
+    from nogo.referee.verify import verify_bundle
+
+    r = verify_bundle(bundle, ["fine"]).claims[0]
+    assert not r.failures and not r.uncovered and len(r.checked) > 40
+
+    def drop_response(doc):
+        mid = next(m for m, rec in doc["models"].items() if rec["kind"] == "mixture")
+        rec = doc["models"][mid]
+        last = len(rec["observe"]) - 1
+        rec["observe"].pop()
+        rec["columns"].pop()
+        for row in rec["rows"]:
+            row["coeffs"] = [[j, v] for j, v in row["coeffs"] if j != last]
+    ev = _copy(bundle, tmp_path)
+    _edit(ev, "fine", drop_response)
+    assert any("missing" in b for b in _failures(ev, "fine"))
+
+    def alien_response(doc):
+        mid = next(m for m, rec in doc["models"].items() if rec["kind"] == "mixture")
+        doc["models"][mid]["observe"][0] = [[0, "1"], [4, "1"], [8, "1"], [13, "1"]]  # B follows A's setting
+    ev2 = _copy(bundle, tmp_path / "two")
+    _edit(ev2, "fine", alien_response)
+    assert any("not a response the declarations allow" in b for b in _failures(ev2, "fine"))
+
+
 def test_changed_theory_copy_rejected(bundle, tmp_path):
     ev = _copy(bundle, tmp_path)
     theory = next(p for p in (ev / "files").iterdir() if p.name.endswith("friends-2x2.yaml"))

@@ -130,12 +130,14 @@ def _in_span(own: OwnModel, extra: list[tuple[dict[int, Fraction], Fraction]]) -
 def load_model(folder: Path, rec: dict, theories: dict, facts_file: str | None) -> Model:
     from ..theory import load_theory
 
-    if rec.get("kind") != "linear":
-        raise NotRebuilt("hidden-variable (mixture) model: this checker rebuilds linear bundles only")
     tpath = folder / rec["theory"]
     if str(tpath) not in theories:
         theories[str(tpath)] = load_theory(tpath)
     th = theories[str(tpath)]
+    if rec.get("kind") == "mixture":
+        return _load_mixture(th, rec)
+    if rec.get("kind") != "linear":
+        raise NotRebuilt(f"model kind {rec.get('kind')!r} is not rebuilt by this checker")
     facts = []
     if rec.get("facts_from") == "pattern":
         if not facts_file:
@@ -167,6 +169,35 @@ def load_model(folder: Path, rec: dict, theories: dict, facts_file: str | None) 
     return Model(own, ev_to_own, rows, rhs)
 
 
+def _load_mixture(th, rec: dict) -> Model:
+    from .rows import rebuild_mixture
+
+    if rec.get("facts_from"):
+        raise NotRebuilt("facts on a hidden-variable model are not rebuilt here")
+    own = rebuild_mixture(th, list(rec["assumptions"]))
+    ev_to_own = []
+    for j, obs in enumerate(rec["observe"]):
+        if any(F(w) != 1 for _, w in obs):
+            raise Broken(f"response {j} ({rec['columns'][j]}) is not deterministic")
+        key = tuple(sorted(i for i, _ in obs))
+        if key not in own.index:
+            raise Broken(f"response {j} ({rec['columns'][j]}) is not a response the declarations allow")
+        ev_to_own.append(own.index[key])
+    rows, rhs = [], []
+    for r in rec["rows"]:
+        row: dict[int, Fraction] = {}
+        for j, v in r["coeffs"]:
+            row[ev_to_own[j]] = row.get(ev_to_own[j], F(0)) + F(v)
+        rows.append(row)
+        rhs.append(F(r["rhs"]))
+    for i, (r, b) in enumerate(zip(rows, rhs)):
+        if not _in_span(own, [(r, b)]):
+            src = rec["rows"][i]["source"]
+            raise Broken(f"row {i} ({src['assumption']}: {src['row']}) does not follow from the declarations "
+                         "(a response the declarations allow is missing, or the row was changed)")
+    return Model(own, ev_to_own, rows, rhs)
+
+
 # -- arithmetic ---------------------------------------------------------------------
 def _cost(model: Model, ineq: dict) -> tuple[list[Fraction], Fraction]:
     own = model.own
@@ -174,22 +205,13 @@ def _cost(model: Model, ineq: dict) -> tuple[list[Fraction], Fraction]:
     # coordinate index from (settings, outcomes): rebuild the order the checker's compiler uses
     for s, a, v in ineq["coeffs"]:
         coeff[(tuple(s), tuple(a))] = F(v)
-    coords = _coords(own)
-    by_index = [coeff.get(c, F(0)) for c in coords]
-    return [by_index[ci] for ci in own.coord], F(ineq["bound"])
+    by_index = [coeff.get(c, F(0)) for c in own.coords]
+    return [sum((w * by_index[i] for i, w in obs.items()), F(0)) for obs in own.observe], F(ineq["bound"])
 
 
 def _coords(own: OwnModel) -> list[tuple]:
-    """Coordinates in index order, recovered from the columns (every coordinate has a column)."""
-    out: list = [None] * own.n_coords
-    n_party = None
-    for (s, e), ci in zip(own.columns, own.coord):
-        if out[ci] is None:
-            n_party = n_party or len(s)
-            out[ci] = (s, e[:len(s)])
-    if any(c is None for c in out):
-        raise Broken("an observed coordinate has no column in the rebuilt model")
-    return out
+    """Coordinates (settings, outcomes) in index order."""
+    return own.coords
 
 
 def farkas(model: Model, ineq: dict, mult: list) -> Fraction:
@@ -206,9 +228,12 @@ def farkas(model: Model, ineq: dict, mult: list) -> Fraction:
         bound += y * model.rhs[i]
     for j, (a, cj) in enumerate(zip(agg, c)):
         if a < cj:
-            s, e = model.own.columns[j]
-            raise Broken(f"the multipliers do not cover column q({', '.join(e)} | {', '.join(s)}): "
-                         f"{a} < {cj}")
+            if model.own.kind == "linear":
+                s, e = model.own.columns[j]
+                what = f"column q({', '.join(e)} | {', '.join(s)})"
+            else:
+                what = f"response {j} of the rebuilt mixture"
+            raise Broken(f"the multipliers do not cover {what}: {a} < {cj}")
     return bound
 
 
@@ -229,7 +254,8 @@ def behaviour_of(model: Model, x: list[Fraction]) -> list[Fraction]:
     out = [F(0)] * model.own.n_coords
     for j, v in enumerate(x):
         if v:
-            out[model.own.coord[j]] += v
+            for i, w in model.own.observe[j].items():
+                out[i] += w * v
     return out
 
 

@@ -27,12 +27,19 @@ class NotRebuilt(Exception):
 @dataclass
 class OwnModel:
     events: list[str]
-    columns: list[tuple[tuple[str, ...], tuple[str, ...]]]  # (settings, values over events)
+    columns: list[tuple]  # linear: (settings, values over events); mixture: the response's support
     index: dict[tuple, int]
     rows: list[dict[int, Fraction]]
     rhs: list[Fraction]
-    coord: list[int]  # coordinate index of each column
+    coord: list[int]  # linear: coordinate index of each column (mixture: unused)
     n_coords: int
+    coords: list[tuple] = None  # (settings, outcomes) in index order
+    observe: list[dict[int, Fraction]] = None  # per column: {coordinate index: weight}
+    kind: str = "linear"
+
+    def __post_init__(self):
+        if self.observe is None:
+            self.observe = [{c: Fraction(1)} for c in self.coord]
 
 
 def _present(scenario, assumptions) -> list[tuple[str, str, object]]:
@@ -139,7 +146,97 @@ def rebuild(theory, names: list[str], facts: list[tuple[tuple[str, ...], tuple[s
             raise NotRebuilt(f"the fact at settings {s}, outcomes {a} is not a coordinate of the scenario")
         rows.append({j: Fraction(1) for j, ci in enumerate(coord) if ci == i})
         rhs.append(Fraction(0))
-    return OwnModel([n for n, _, _ in ev], columns, index, rows, rhs, coord, len(coords))
+    return OwnModel([n for n, _, _ in ev], columns, index, rows, rhs, coord, len(coords), list(coords))
+
+
+def rebuild_mixture(theory, names: list[str]) -> OwnModel:
+    """Every extreme response of a deterministic hidden-variable bundle, and the weights' normalisation.
+
+    Covered: a hidden variable independent of all settings; per party, either a factor of its own
+    (``factorise`` into single-party groups) or a predetermined outcome; independence given λ of a
+    party's outcome from other parties' settings.  Then each party's response given λ is a
+    distribution over its outcomes for each tuple of the settings it may depend on — a product of
+    simplices, whose extreme points are the deterministic assignments — and the mixture's set is the
+    convex hull of the products of those (multilinearity).  Anything else raises NotRebuilt.
+    """
+    from ..theory import Absolute, Counterfactual, Factorise, Hidden, Independent, Predetermined
+
+    sc = theory.scenario
+    pnames = [p.name for p in sc.parties]
+    hidden, free, factor, determined = set(), False, set(), {}
+    indep: dict[str, set[str]] = {p: set() for p in pnames}
+    for n in names:
+        a = theory.assumptions.get(n)
+        if a is None:
+            raise NotRebuilt(f"the theory copy has no assumption {n}")
+        for c in a.clauses:
+            if isinstance(c, Hidden):
+                hidden.add(c.name)
+            elif isinstance(c, (Absolute, Counterfactual)):
+                raise NotRebuilt(f"'{n}': inner or latent events in a hidden-variable model are not rebuilt here")
+    for n in names:
+        for c in theory.assumptions[n].clauses:
+            if isinstance(c, Hidden):
+                continue
+            if isinstance(c, Independent) and not c.given:
+                if set(c.events) <= hidden and set(c.of) == set(pnames):
+                    free = True
+                    continue
+                raise NotRebuilt(f"'{n}': a clause on the mixture is not rebuilt here")
+            if isinstance(c, Independent):
+                ev = [e for e in c.events if e in pnames]
+                if [e for e in c.events if e not in pnames and e not in hidden]:
+                    pass  # absent events drop out (rule of projection)
+                if len(ev) != 1:
+                    raise NotRebuilt(f"'{n}': independence of several parties' outcomes given λ is not rebuilt here")
+                indep[ev[0]] |= set(c.of) - {ev[0]}
+            elif isinstance(c, Factorise):
+                groups = [[e for e in g if e in pnames] for g in c.groups]
+                groups = [g for g in groups if g]
+                if any(len(g) != 1 for g in groups) or sorted(x for g in groups for x in g) != sorted(pnames):
+                    raise NotRebuilt(f"'{n}': only a factorisation into single parties is rebuilt here")
+                factor |= {g[0] for g in groups}
+            elif isinstance(c, Predetermined):
+                for e in c.events:
+                    if e not in pnames:
+                        raise NotRebuilt(f"'{n}': predetermination of a non-party event is not rebuilt here")
+                    determined[e] = set(c.depends_on) if c.depends_on is not None else set(pnames)
+            else:
+                raise NotRebuilt(f"'{n}': clause {type(c).__name__} is not rebuilt here")
+    if not hidden or not free:
+        raise NotRebuilt("a hidden variable that may depend on the settings is not rebuilt here")
+    for p in pnames:
+        if p not in factor and p not in determined:
+            raise NotRebuilt(f"party {p}'s response is neither its own factor nor predetermined: not rebuilt here")
+    settings = list(itertools.product(*(p.settings for p in sc.parties)))
+    outs = list(itertools.product(*(p.outcomes for p in sc.parties)))
+    coords = [(s, a) for s in settings for a in outs]
+    cindex = {c: i for i, c in enumerate(coords)}
+    # the settings each party's response may depend on
+    dep = {}
+    for i, p in enumerate(pnames):
+        d = set(pnames) - indep[p]
+        if p in determined:
+            d &= determined[p]
+        dep[p] = [j for j, q2 in enumerate(pnames) if q2 in d]
+    per_party = []
+    for i, p in enumerate(sc.parties):
+        keys = sorted({tuple(s[j] for j in dep[p.name]) for s in settings})
+        per_party.append([dict(zip(keys, vals)) for vals in itertools.product(p.outcomes, repeat=len(keys))])
+    columns, index, observe = [], {}, []
+    for combo in itertools.product(*per_party):
+        support = []
+        for s in settings:
+            a = tuple(f[tuple(s[j] for j in dep[p.name])] for f, p in zip(combo, sc.parties))
+            support.append(cindex[(s, a)])
+        key = tuple(sorted(support))
+        if key in index:
+            continue
+        index[key] = len(columns)
+        columns.append(key)
+        observe.append({i: Fraction(1) for i in key})
+    rows = [{j: Fraction(1) for j in range(len(columns))}]
+    return OwnModel([], columns, index, rows, [Fraction(1)], [], len(coords), coords, observe, "mixture")
 
 
 def _outcome_set(raw, scenario, outs_all):
