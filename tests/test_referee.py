@@ -87,6 +87,15 @@ claims:
   - id: marginal-signalling
     theory: {T}/hidden-2x2.yaml
     implies: {{bundle: no-signal-A, inequality: "p_B(+1|1) <= 1"}}
+  - id: local-in-ns
+    theory: {T}/bell-2x2.yaml
+    contained_in: {{inner: Bell-local, outer: no-signalling}}
+  - id: pr-box
+    theory: {T}/bell-2x2.yaml
+    not_contained_in: {{inner: no-signalling, outer: Bell-local}}
+  - id: ns-in-local
+    theory: {T}/bell-2x2.yaml
+    contained_in: {{inner: no-signalling, outer: Bell-local}}
   - id: tsirelson
     theory: {T}/bell-2x2.yaml
     quantum_bound: {{inequality: CHSH, bound: 2*sqrt(2), tolerance: 1/1000000}}
@@ -116,6 +125,9 @@ def test_published_claims_confirmed(decided):
     assert v["hardy"].status == "CONFIRMED"  # Hardy 1993
     assert v["tsirelson"].status == "CONFIRMED"  # Tsirelson 1980, at NPA level 1
     assert v["minimal"].status == "CONFIRMED" and v["facet"].status == "CONFIRMED"
+    # Bell-local inside no-signalling, strictly: the PR box (Popescu & Rohrlich, Found. Phys. 24, 379 (1994))
+    assert v["local-in-ns"].status == "CONFIRMED" and v["pr-box"].status == "CONFIRMED"
+    assert "⊄" in v["pr-box"].account
 
 
 def test_altered_claims_refuted_with_evidence(decided):
@@ -133,6 +145,8 @@ def test_altered_claims_refuted_with_evidence(decided):
     assert v["mermin-wrong"].status == "REFUTED"
     assert v["hardy-3"].status == "REFUTED"  # Hardy's argument needs its four facts (smallest proven)
     assert v["not-facet"].status == "REFUTED"
+    ns = v["ns-in-local"]  # no-signalling is not inside Bell-local: a vertex breaks a certified facet
+    assert ns.status == "REFUTED" and {c["type"] for c in ns.checks} >= {"bound", "exceeds"}
 
 
 def test_ill_posed_said_in_words(decided):
@@ -261,6 +275,7 @@ def _tamper_multiplier(doc, kind):
 
 
 TAMPER_KINDS = {"bound": "lf-chsh-read-out", "exceeds": "tighter", "facets": "lf-932", "face": "facet",
+                "witness": "pr-box",
                 "quantum": "mermin", "visibility": "visibility", "pattern": "hardy"}
 
 

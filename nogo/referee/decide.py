@@ -402,11 +402,20 @@ def decide_sets(ctx: Context, claim: Claim, v: Verdict) -> None:
             _contained_evidence(v, ctx, claim, b, ra, a)
         elif c.second_outside:
             _witness_evidence(v, ctx, claim, b, rb, a, ra, c.second_outside[0])
-    v.account = (f"Both sets were described exactly ({len(ra.vertices)} and {len(rb.vertices)} vertices, "
-                 f"{len(ra.facets)} and {len(rb.facets)} facets): {rel}. A containment is shown by every facet and "
-                 f"hull equation of the outer set being implied by the inner bundle (a Farkas certificate each) "
-                 f"and the outer set's vertices having exact preimages in its model; a non-containment by a vertex "
-                 f"of one set (exact preimage) that breaks an inequality certified valid on the other.")
+    parts = [f"Both sets were described exactly ({at}: {len(ra.vertices)} vertices, {len(ra.facets)} facets; "
+             f"{bt}: {len(rb.vertices)} vertices, {len(rb.facets)} facets): {rel}."]
+    for role, spec_in, spec_out, inside, w in (("first", at, bt, a_in_b, c.first_outside),
+                                               ("second", bt, at, b_in_a, c.second_outside)):
+        if role == "second" and claim.kind != "same_set":
+            break
+        if inside:
+            parts.append(f"{spec_in} ⊆ {spec_out}: every facet and hull equation of {spec_out} is implied by "
+                         f"{spec_in} (a Farkas certificate each), and {spec_out}'s vertices have exact preimages "
+                         f"in its model.")
+        elif w:
+            parts.append(f"{spec_in} ⊄ {spec_out}: a vertex of {spec_in} (exact preimage) reaches {q(w[0].value)} on "
+                         f"{w[0].breaks}, whose bound {q(w[0].bound)} is certified valid on {spec_out}.")
+    v.account = " ".join(parts)
 
 
 def _affine_evidence(v, ctx, claim, res, mid, model) -> None:

@@ -279,6 +279,14 @@ def _conclusion(cl: _Claim, rep: ClaimReport) -> None:
         drops = {r for r, *_ in cl.exceeding if r.startswith("without ")}
         need = (any(r == "whole" for r, _, _ in cl.proven) and
                 len(drops) == len(cl.doc["details"].get("claimed", [])), "a drop without its counterexample")
+    elif kind in ("contained_in", "same_set") and verdict == "CONFIRMED":
+        need = (any(r == "outer facet on inner" for r, _, _ in cl.proven) and "outer vertices" in cl.inside,
+                "a containment without the outer set's facets certified on the inner set")
+    elif (kind == "not_contained_in" and verdict == "CONFIRMED") or (kind == "contained_in" and verdict == "REFUTED"):
+        broken = [q for r, q, _, _ in cl.exceeding if r == "a behaviour of the inner set breaks it"]
+        valid = [q for r, q, _ in cl.proven if r == "valid on the outer set"]
+        need = (any(x["coeffs"] == y["coeffs"] and x["bound"] == y["bound"] for x in broken for y in valid),
+                "no behaviour of the inner set breaking an inequality valid on the outer set")
     if need is not None and not need[0]:
         rep.failures.append(f"the verdict {verdict} does not follow: {need[1]}")
 
