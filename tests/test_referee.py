@@ -486,3 +486,14 @@ def test_example_claims_file_and_committed_report():
     committed = (E / "claims" / "sealed-aviaries-report.md").read_text()
     assert to_markdown(cf, verdicts) == committed
     assert seconds < 60  # target 30 s on an idle machine (benchmarks/bench_referee.py measures it)
+
+
+def test_facet_certificates_fanned_out_agree(tmp_path):
+    """The same facet-count evidence with the certificates computed in two processes."""
+    p = tmp_path / "c.yaml"
+    p.write_text(f"theory: {T}/bell-2x2.yaml\nclaims:\n"
+                 "  - {id: n, facet_count: {bundle: Bell-local, facets: 24, classes: 2}}\n")  # Fine 1982; Froissart 1981
+    one = referee(p)[1][0]
+    two = referee(p, workers=2)[1][0]
+    assert one.status == two.status == "CONFIRMED"
+    assert [c for c in one.checks if c["type"] == "facets"] == [c for c in two.checks if c["type"] == "facets"]

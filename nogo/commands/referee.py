@@ -19,6 +19,8 @@ def register(sub) -> None:
     p.add_argument("--out", action="append", default=[], metavar="FILE",
                    help="write the report: .md, .tex (a section to paste) or .html (self-contained); repeatable")
     p.add_argument("--evidence", metavar="DIR", help="write the evidence bundle (re-check it with nogo recheck DIR)")
+    p.add_argument("--workers", type=int, default=1,
+                   help="processes for the certificates of long facet lists (default 1)")
     p.set_defaults(run=run)
 
 
@@ -34,7 +36,9 @@ def run(args) -> int:
         if ext not in ("md", "tex", "html"):
             raise InputError(f"--out {o}: the report is written as .md, .tex or .html", hint="name the file report.md")
         outs.append((o, ext))
-    cf, verdicts, seconds = referee(args.claims)
+    if args.workers < 1:
+        raise InputError("--workers must be at least 1")
+    cf, verdicts, seconds = referee(args.claims, workers=args.workers)
     for o, ext in outs:
         write_text(o, render(ext, cf, verdicts))
     manifest = None

@@ -32,7 +32,8 @@ from .evidence import Verdict, ineq_record, model_record, q, sparse
 class Context:
     """Loaded declarations and compiled models, shared by the claims of one file."""
 
-    def __init__(self):
+    def __init__(self, workers: int = 1):
+        self.workers = workers  # processes for facet certificates (through nogo.fanout)
         self.theories: dict[str, Any] = {}
         self.models: dict[tuple, tuple[Any, list[str], str]] = {}
         self.facet_results: dict[tuple, Any] = {}
@@ -486,6 +487,12 @@ def _affine_points(vertices, tight):
     return chosen
 
 
+def _certify_chunk(task) -> list[list[Fraction]]:
+    """Farkas multipliers of several inequalities on one model (a pure function, for fan_out)."""
+    model, ineqs = task
+    return [decided(model, t, guard=False).certificate.duals for t in ineqs]
+
+
 def decide_facet_count(ctx: Context, claim: Claim, v: Verdict) -> None:
     res = ctx.facets(claim.theory, claim.params["bundle"])
     b = bundle_text(claim.params["bundle"])
@@ -504,11 +511,13 @@ def decide_facet_count(ctx: Context, claim: Claim, v: Verdict) -> None:
         before = len(v.checks)
         _affine_evidence(v, ctx, claim, res, mid, model)
         inside_check(v, mid, model, res.vertices, "vertices")
-        facets = []
-        for f in res.polytope.facets:
-            t = _ineq_of(res, f)
-            r = decided(model, t, guard=False)
-            facets.append({"inequality": ineq_record(t), "multipliers": sparse(r.certificate.duals)})
+        from ..fanout import fan_out
+
+        ineqs = [_ineq_of(res, f) for f in res.polytope.facets]
+        size = max(1, len(ineqs) // (4 * max(1, ctx.workers)))
+        chunks = [(model, ineqs[i:i + size]) for i in range(0, len(ineqs), size)]
+        duals = [y for part in fan_out(_certify_chunk, chunks, ctx.workers) for y in part]
+        facets = [{"inequality": ineq_record(t), "multipliers": sparse(y)} for t, y in zip(ineqs, duals)]
         v.checks.append({"type": "facets", "role": "claim", "model": mid, "dimension": res.dim, "facets": facets,
                          "count": n})
         ctx.evidence[key] = v.checks[before:]

@@ -9,13 +9,13 @@ from .claims import ClaimsFile, check_names, read_claims
 from .evidence import Verdict
 
 
-def referee(path: str | Path, progress=None) -> tuple[ClaimsFile, list[Verdict], float]:
+def referee(path: str | Path, progress=None, workers: int = 1) -> tuple[ClaimsFile, list[Verdict], float]:
     """Read the claims file, check every name (InputError on a typo), decide every claim."""
     from .decide import Context, decide_claim
 
     t0 = time.perf_counter()
     cf = read_claims(path)
-    ctx = Context()
+    ctx = Context(workers)
 
     def experiment_theory(exp_path: str):
         from ..quantum.experiment import load_experiment
