@@ -639,5 +639,15 @@ def decide_claim(ctx: Context, claim: Claim) -> Verdict:
         if exc.hint:
             v.account += f" ({exc.hint}.)"
         v.checks, v.models = [], {}
+    except Exception as exc:  # noqa: BLE001 - one claim's failure must not hide the verdicts of the others
+        import os
+
+        if os.environ.get("NOGO_DEBUG"):
+            raise
+        v.status, v.summary = "NOT DECIDED", f"nogo could not decide it ({type(exc).__name__})"
+        v.account = (f"Deciding this claim stopped with an internal error ({type(exc).__name__}: {exc}); no verdict "
+                     "is given. This is a defect of nogo, not of the claim: please report it (NOGO_DEBUG=1 shows "
+                     "where it happened).")
+        v.checks, v.models = [], {}
     v.seconds = time.perf_counter() - t0
     return v

@@ -114,6 +114,11 @@ def decide_violates(ctx: Context, claim: Claim, v: Verdict) -> None:
     exp = _load(ctx, claim, v)
     ineq = inequality(ctx, claim)
     v.notation = ineq.display()
+    if not exp.is_exact:
+        v.status, v.summary = "NOT DECIDED", "the experiment is written with floating-point numbers"
+        v.account = ("Without exact inputs no rigorous enclosure of the Born-rule value exists, so no verdict is "
+                     "certified; write the state and the measurements with exact numbers (fractions, sqrt, pi).")
+        return
     (val,) = evaluate(exp, [ineq], want_exact=True)
     brec = behaviour_record(exp)
     rec = {"type": "quantum", "role": "claim", "inequality": ineq_record(ineq), "behaviour": brec,

@@ -188,7 +188,8 @@ def _quantum(cl: _Claim, ch: dict) -> str:
         ok = _within(val, lo - tol, hi + tol)
         if ok != (cl.doc["verdict"] == "CONFIRMED") and cl.doc["verdict"] in ("CONFIRMED", "REFUTED"):
             raise Broken("the value and the claimed value disagree with the verdict")
-    cl.exceeding.append((ch["role"] + " (quantum)", ch["inequality"], val["lo"], []))
+    if _above(val, bound):
+        cl.exceeding.append((ch["role"] + " (quantum)", ch["inequality"], val["lo"], []))
     return f"quantum value in [{float(val['lo']):.12g}, {float(val['hi']):.12g}]"
 
 
@@ -279,6 +280,10 @@ def _conclusion(cl: _Claim, rep: ClaimReport) -> None:
         drops = {r for r, *_ in cl.exceeding if r.startswith("without ")}
         need = (any(r == "whole" for r, _, _ in cl.proven) and
                 len(drops) == len(cl.doc["details"].get("claimed", [])), "a drop without its counterexample")
+    elif kind in ("violates", "outside") and verdict == "CONFIRMED":
+        need = any(r == "claim (quantum)" for r, *_ in cl.exceeding), "no quantum value above the bound"
+    elif kind == "critical_visibility" and verdict in ("CONFIRMED", "REFUTED"):
+        need = any(x.startswith("visibility") for x in rep.checked), "no visibility bracket"
     elif kind in ("contained_in", "same_set") and verdict == "CONFIRMED":
         need = (any(r == "outer facet on inner" for r, _, _ in cl.proven) and "outer vertices" in cl.inside,
                 "a containment without the outer set's facets certified on the inner set")
