@@ -63,6 +63,9 @@ claims:
   - id: hardy
     theory: {T}/bell-2x2.yaml
     contradiction: {{bundle: Bell-local, pattern: {E}/patterns/hardy.yaml}}
+  - id: hardy-hidden
+    theory: {T}/hidden-2x2.yaml
+    contradiction: {{bundle: local-causality, pattern: {E}/patterns/hardy.yaml}}
   - id: hardy-3
     theory: {T}/bell-2x2.yaml
     contradiction_within: {{bundle: Bell-local, pattern: {E}/patterns/hardy.yaml, facts: 3}}
@@ -123,6 +126,7 @@ def test_published_claims_confirmed(decided):
     assert v["visibility"].status == "CONFIRMED"  # 1/sqrt(2), from memory
     assert v["mermin"].status == "CONFIRMED"  # Mermin 1990: GHZ reaches 4
     assert v["hardy"].status == "CONFIRMED"  # Hardy 1993
+    assert v["hardy-hidden"].status == "CONFIRMED"  # Hardy 1993, read over the responses of a local mixture
     assert v["tsirelson"].status == "CONFIRMED"  # Tsirelson 1980, at NPA level 1
     assert v["minimal"].status == "CONFIRMED" and v["facet"].status == "CONFIRMED"
     # Bell-local inside no-signalling, strictly: the PR box (Popescu & Rohrlich, Found. Phys. 24, 379 (1994))
@@ -275,7 +279,7 @@ def _tamper_multiplier(doc, kind):
 
 
 TAMPER_KINDS = {"bound": "lf-chsh-read-out", "exceeds": "tighter", "facets": "lf-932", "face": "facet",
-                "witness": "pr-box",
+                "witness": "pr-box", "pattern-hidden": "hardy-hidden",
                 "quantum": "mermin", "visibility": "visibility", "pattern": "hardy"}
 
 
@@ -284,15 +288,19 @@ def test_changed_number_rejected(bundle, tmp_path, kind):
     cid = TAMPER_KINDS[kind]
     ev = _copy(bundle, tmp_path)
     assert _failures(ev, cid) == []
-    _edit(ev, cid, lambda d: _tamper_multiplier(d, {"face": "bound", "pattern": "bound"}.get(kind, kind)))
+    _edit(ev, cid, lambda d: _tamper_multiplier(d, {"face": "bound", "pattern": "bound", "pattern-hidden": "bound", "witness": "bound"}.get(kind, kind)))
     bad = _failures(ev, cid)
     assert bad, f"a changed number in the {kind} evidence of {cid} was accepted"
 
 
 def _tamper_row(doc):
-    mid = next(m for m, rec in doc["models"].items() if rec.get("kind") == "linear")
-    rows = doc["models"][mid]["rows"]
-    i = next(i for i, r in enumerate(rows) if r["source"]["kind"] == "independent")
+    linear = [m for m, rec in doc["models"].items() if rec.get("kind") == "linear"]
+    if linear:
+        rows = doc["models"][linear[0]]["rows"]
+        i = next(i for i, r in enumerate(rows) if r["source"]["kind"] == "independent")
+    else:  # a mixture with facts: change a fact's row
+        rows = next(rec for rec in doc["models"].values() if rec.get("facts_from"))["rows"]
+        i = len(rows) - 1
     rows[i]["coeffs"][0][1] = "2"
 
 

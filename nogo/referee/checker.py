@@ -135,7 +135,12 @@ def load_model(folder: Path, rec: dict, theories: dict, facts_file: str | None) 
         theories[str(tpath)] = load_theory(tpath)
     th = theories[str(tpath)]
     if rec.get("kind") == "mixture":
-        return _load_mixture(th, rec)
+        facts = []
+        if rec.get("facts_from") == "pattern":
+            if not facts_file:
+                raise Broken("the model uses facts of a pattern, but the evidence names no pattern file")
+            facts = pattern_facts(str(folder / facts_file), th.scenario)
+        return _load_mixture(th, rec, facts)
     if rec.get("kind") != "linear":
         raise NotRebuilt(f"model kind {rec.get('kind')!r} is not rebuilt by this checker")
     facts = []
@@ -169,12 +174,17 @@ def load_model(folder: Path, rec: dict, theories: dict, facts_file: str | None) 
     return Model(own, ev_to_own, rows, rhs)
 
 
-def _load_mixture(th, rec: dict) -> Model:
+def _load_mixture(th, rec: dict, facts: list) -> Model:
     from .rows import rebuild_mixture
 
-    if rec.get("facts_from"):
-        raise NotRebuilt("facts on a hidden-variable model are not rebuilt here")
     own = rebuild_mixture(th, list(rec["assumptions"]))
+    cindex = {c: i for i, c in enumerate(own.coords)}
+    for s, a in facts:  # "p(a|s) = 0": the weights of the responses that produce it vanish
+        i = cindex.get((tuple(s), tuple(a)))
+        if i is None:
+            raise NotRebuilt(f"the fact at settings {s}, outcomes {a} is not a coordinate of the scenario")
+        own.rows.append({j: obs[i] for j, obs in enumerate(own.observe) if i in obs})
+        own.rhs.append(F(0))
     ev_to_own = []
     for j, obs in enumerate(rec["observe"]):
         if any(F(w) != 1 for _, w in obs):

@@ -546,6 +546,10 @@ def decide_pattern_claim(ctx: Context, claim: Claim, v: Verdict) -> None:
     pat = load_pattern(claim.params["pattern"], th.scenario)
     v.files["pattern"] = claim.params["pattern"]
     b = bundle_text(claim.params["bundle"])
+    model, _ = use_model(v, ctx, claim.theory, claim.params["bundle"])
+    if model.kind == "mixture":
+        _decide_pattern_responses(ctx, claim, v, th, pat, b)
+        return
     res = decide_pattern(th, bundle_spec(claim.params["bundle"]), pat, minimise="smallest", time_limit=20.0)
     k = claim.params.get("facts")
     if not res.contradiction:
@@ -563,7 +567,7 @@ def decide_pattern_claim(ctx: Context, claim: Claim, v: Verdict) -> None:
     if res.proof is not None:
         v.details["proof_markdown"] = to_markdown(res.proof, {n: a.says for n, a in th.assumptions.items()})
         v.details["proof"] = res.proof.to_dict()
-    _pattern_certificate(v, ctx, claim, facts)
+    _pattern_certificate(v, ctx, claim, [(g.kind, g.settings, g.outcomes) for g in facts])
     if k is None or len(facts) <= k:
         v.status = "CONFIRMED"
         v.summary = f"contradiction from {len(facts)} facts" + (f" (at most {k} claimed)" if k else "")
@@ -581,6 +585,39 @@ def decide_pattern_claim(ctx: Context, claim: Claim, v: Verdict) -> None:
                      f"(lower bound {res.lower_bound} constraints); the claim of at most {k} is neither shown nor refuted.")
 
 
+def _decide_pattern_responses(ctx, claim, v, th, pat, b) -> None:
+    """Hidden-variable bundles: the pattern read over the mixture's responses (nogo.possibilistic.responses)."""
+    from ..possibilistic.responses import decide_responses, response_proof_markdown
+
+    res = decide_responses(th, bundle_spec(claim.params["bundle"]), pat)
+    k = claim.params.get("facts")
+    if not res.contradiction:
+        v.status, v.summary = "REFUTED", f"the pattern is consistent with {b}"
+        v.account = (f"Responses of the mixture of {b} that produce no impossible event still produce every possible "
+                     f"event ({len(res.model)} survive), so the pattern can occur.")
+        v.details = {"surviving_responses": res.model}
+        v.checks.append({"type": "trusted", "role": "claim", "what": "the surviving responses",
+                         "why": "re-checked by nogo.possibilistic.responses in the deciding run"})
+        return
+    facts = [("impossible", s, a) for s, a in res.facts] + [("possible",) + tuple(res.event)]
+    v.details = {"facts": len(facts), "exclusions": len(res.exclusions),
+                 "proof_markdown": response_proof_markdown(res, th.file or "")}
+    v.notation = "; ".join(f"p({','.join(a)}|{','.join(s)}) {'> 0' if kind == 'possible' else '= 0'}"
+                           for kind, s, a in facts)
+    _pattern_certificate(v, ctx, claim, facts)
+    if k is None or len(facts) <= k:
+        v.status = "CONFIRMED"
+        v.summary = f"contradiction from {len(facts)} facts" + (f" (at most {k} claimed)" if k else "")
+        v.account = (f"Every response of the mixture of {b} that could produce the possible event "
+                     f"p({','.join(res.event[1])}|{','.join(res.event[0])}) would also produce one of "
+                     f"{len(res.facts)} impossible events, so it has weight zero; as an exact cross-check the same "
+                     f"facts force that probability to zero (Farkas certificate over the responses' weights).")
+    else:
+        v.status, v.summary = "NOT DECIDED", f"found a contradiction with {len(facts)} facts; smaller not searched"
+        v.account = ("The response reading covers the excluded responses greedily; a smaller set of facts is not "
+                     f"excluded, so 'at most {k}' is neither shown nor refuted.")
+
+
 def _pattern_certificate(v, ctx, claim, facts) -> None:
     """Zeros of the core's impossible facts force its possible events to probability zero (linear models)."""
     from ..inequality import Inequality
@@ -590,16 +627,16 @@ def _pattern_certificate(v, ctx, claim, facts) -> None:
     sc = model.scenario
     coords = {c: i for i, c in enumerate(sc.coordinates())}
     rows, rhs, src = list(model.rows), list(model.rhs), list(model.sources)
-    for g in facts:
-        if g.kind == "impossible":
-            i = coords[(g.settings, g.outcomes)]
+    for kind, st, outs in facts:
+        if kind == "impossible":
+            i = coords[(tuple(st), tuple(outs))]
             rows.append({j: o[i] for j, o in enumerate(model.observe) if i in o})
             rhs.append(Fraction(0))
             src.append(RowSource("fact", "fact", 0, tuple(sc.party_names),
-                                 f"p({','.join(g.outcomes)}|{','.join(g.settings)}) = 0"))
+                                 f"p({','.join(outs)}|{','.join(st)}) = 0"))
     fixed = LinearModel(sc, model.label + " with the facts", model.assumptions, model.columns, rows, rhs, src,
                         model.observe, kind=model.kind)
-    poss = {(g.settings, g.outcomes): Fraction(1) for g in facts if g.kind == "possible"}
+    poss = {(tuple(st), tuple(outs)): Fraction(1) for kind, st, outs in facts if kind == "possible"}
     ineq = Inequality(sc, poss, Fraction(0), "possible events", " + ".join(
         f"p({','.join(a)}|{','.join(s)})" for s, a in poss) + " <= 0")
     r = decided(fixed, ineq, guard=False)
