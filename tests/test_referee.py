@@ -471,6 +471,8 @@ def test_cli_exit_status_and_outputs(tmp_path, capsys):
     ("claims:\n  - {id: a, implies: {bundle: X, inequality: CHSH, colour: red}}\n", "no key 'colour'"),
     ("claims:\n  - {id: a, facet_count: {bundle: X, facets: many}}\n", "whole number"),
     ("claims:\n  - {id: a, violates: {experiment: nowhere.yaml, inequality: CHSH}}\n", "no experiment file"),
+    ("claims:\n  - {id: a, quantum_bound: {inequality: CHSH, bound: two}}\n", "must be a number"),
+    ("claims:\n  - {id: a, facet_count: {bundle: X, facets: 3, time_limit: -1}}\n", "seconds > 0"),
 ])
 def test_bad_claims_files(tmp_path, text, fragment):
     from nogo.referee.claims import read_claims
@@ -505,3 +507,12 @@ def test_facet_certificates_fanned_out_agree(tmp_path):
     two = referee(p, workers=2)[1][0]
     assert one.status == two.status == "CONFIRMED"
     assert [c for c in one.checks if c["type"] == "facets"] == [c for c in two.checks if c["type"] == "facets"]
+
+
+def test_time_limit_gives_not_decided(tmp_path):
+    """A derivation stopped by its time limit is NOT DECIDED, saying how far it got."""
+    p = tmp_path / "c.yaml"
+    p.write_text(f"theory: {T}/friends-2x3.yaml\nclaims:\n"
+                 "  - {id: n, facet_count: {bundle: local-friendliness, facets: 932, time_limit: 0.01}}\n")
+    (v,) = referee(p)[1]
+    assert v.status == "NOT DECIDED" and "time limit" in v.summary and "vertices" in v.account

@@ -33,11 +33,11 @@ KINDS: dict[str, tuple[tuple[str, ...], tuple[str, ...]]] = {
     "does_not_imply": (("bundle", "inequality"), ("versions",)),
     "minimal": (("bundle", "inequality"), ("background",)),
     "not_needed": (("bundle", "assumption", "inequality"), ()),
-    "same_set": (("bundles",), ()),
-    "contained_in": (("inner", "outer"), ()),
-    "not_contained_in": (("inner", "outer"), ()),
-    "facet": (("bundle", "inequality"), ()),
-    "facet_count": (("bundle", "facets"), ("classes",)),
+    "same_set": (("bundles",), ("time_limit",)),
+    "contained_in": (("inner", "outer"), ("time_limit",)),
+    "not_contained_in": (("inner", "outer"), ("time_limit",)),
+    "facet": (("bundle", "inequality"), ("time_limit",)),
+    "facet_count": (("bundle", "facets"), ("classes", "time_limit")),
     "violates": (("experiment", "inequality"), ("value", "tolerance")),
     "outside": (("experiment", "bundle"), ()),
     "critical_visibility": (("experiment", "bundle", "value", "tolerance"), ()),
@@ -107,6 +107,10 @@ def _number(raw, where: Where, what: str, positive: bool = False) -> str:
     txt = str(raw).strip()
     if not txt:
         raise InputError(f"'{what}' is empty", where)
+    import re
+
+    if not re.fullmatch(r"(?:[0-9.+\-*/^() eE]|sqrt|pi)+", txt) or not re.search(r"[0-9]|pi", txt):
+        raise InputError(f"'{what}' must be a number such as 0.7071, 2, 1/10 or 2*sqrt(2), not '{txt}'", where)
     if positive:
         try:
             if Fraction(txt) < 0:
@@ -176,6 +180,9 @@ def read_claims(path: str | Path) -> ClaimsFile:
         for k in ("experiment", "pattern"):
             if k in params:
                 params[k] = _path(base, params[k], at(k), k)
+        if "time_limit" in params and (isinstance(params["time_limit"], bool)
+                                       or not isinstance(params["time_limit"], (int, float)) or params["time_limit"] <= 0):
+            raise InputError(f"claim '{cid}': 'time_limit' is a number of seconds > 0", at("time_limit"))
         for k in ("value", "tolerance", "bound"):
             if k in params:
                 params[k] = _number(params[k], at(k), k, positive=(k == "tolerance"))

@@ -64,12 +64,13 @@ class Context:
             self.models[key] = (m, names, f"m{len(self.models)}")
         return self.models[key]
 
-    def facets(self, theory_path: str, spec):
+    def facets(self, theory_path: str, spec, time_limit: float | None = None):
         from ..facets import facets
 
         key = (theory_path, tuple(self.names(self.theory(theory_path), spec)))
-        if key not in self.facet_results:
-            self.facet_results[key] = facets(self.theory(theory_path), bundle_spec(spec), cache=False)
+        if key not in self.facet_results or (self.facet_results[key].status != "complete" and time_limit is None):
+            self.facet_results[key] = facets(self.theory(theory_path), bundle_spec(spec), cache=False,
+                                             time_limit=time_limit)
         return self.facet_results[key]
 
 
@@ -376,10 +377,14 @@ def decide_sets(ctx: Context, claim: Claim, v: Verdict) -> None:
         a, b = claim.params["bundles"]
     else:
         a, b = claim.params["inner"], claim.params["outer"]
-    ra, rb = ctx.facets(claim.theory, a), ctx.facets(claim.theory, b)
+    tl = claim.params.get("time_limit")
+    ra, rb = ctx.facets(claim.theory, a, tl), ctx.facets(claim.theory, b, tl)
     if ra.status != "complete" or rb.status != "complete":
-        v.status, v.summary = "NOT DECIDED", "a facet description stayed partial"
-        v.account = "The exact description of at least one set did not finish; no comparison is claimed."
+        v.status, v.summary = "NOT DECIDED", f"a facet description stayed partial (time limit {tl} s)"
+        v.account = (f"The exact descriptions did not finish within the time limit: {bundle_text(a)} "
+                     f"{ra.status} ({len(ra.vertices)} vertices, {len(ra.facets)} facets so far), {bundle_text(b)} "
+                     f"{rb.status} ({len(rb.vertices)} vertices, {len(rb.facets)} facets so far); no comparison is "
+                     "claimed.")
         return
     c = compare_results(ra, rb)
     at, bt = bundle_text(a), bundle_text(b)
@@ -435,7 +440,13 @@ def decide_facet(ctx: Context, claim: Claim, v: Verdict) -> None:
         v.status, v.summary = "REFUTED", f"not even valid: {b} reaches {q(r.maximum)} > {q(ineq.bound)}"
         v.account = f"The inequality is not valid on the set of {b}, so it is no facet: an exact behaviour reaches {q(r.maximum)}."
         return
-    res = ctx.facets(claim.theory, claim.params["bundle"])
+    res = ctx.facets(claim.theory, claim.params["bundle"], claim.params.get("time_limit"))
+    if res.status != "complete":
+        bound_check(v, mid, ineq, r, "claim")
+        v.status, v.summary = "NOT DECIDED", "valid, but the facet derivation stopped at its time limit"
+        v.account = (f"The inequality is valid on the set (Farkas certificate); the exact description stopped after "
+                     f"{len(res.vertices)} vertices and {len(res.facets)} facets, before facetness was settled.")
+        return
     f = res.facet_of(ineq)
     coords = res.scenario.coordinates()
     tight = [p for p in res.vertices if ineq.value(dict(zip(coords, p))) == ineq.bound]
@@ -494,7 +505,7 @@ def _certify_chunk(task) -> list[list[Fraction]]:
 
 
 def decide_facet_count(ctx: Context, claim: Claim, v: Verdict) -> None:
-    res = ctx.facets(claim.theory, claim.params["bundle"])
+    res = ctx.facets(claim.theory, claim.params["bundle"], claim.params.get("time_limit"))
     b = bundle_text(claim.params["bundle"])
     model, mid = use_model(v, ctx, claim.theory, claim.params["bundle"])
     n, k = len(res.facets), len(res.classes)
@@ -503,8 +514,9 @@ def decide_facet_count(ctx: Context, claim: Claim, v: Verdict) -> None:
                  "class_sizes": {c.name: c.size for c in res.classes}}
     v.notation = ", ".join(f"{c.name}: {c.size}" for c in res.classes)
     if res.status != "complete":
-        v.status, v.summary = "NOT DECIDED", f"the derivation stopped with {n} facets found (partial)"
-        v.account = "The facet derivation did not finish; the count is a lower bound only."
+        v.status, v.summary = "NOT DECIDED", f"the derivation stopped at its time limit with {n} facets found"
+        v.account = (f"The facet derivation stopped at its time limit ({claim.params.get('time_limit')} s) with "
+                     f"{len(res.vertices)} vertices and {n} candidate facets; no count is claimed.")
         return
     key = ("facet list", claim.theory, mid)
     if key not in ctx.evidence:  # the same set counted by several claims: certify its facets once
