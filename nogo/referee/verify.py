@@ -29,10 +29,15 @@ class _Claim:
             rec = self.doc["models"].get(mid)
             if rec is None:
                 raise Broken(f"the evidence refers to model {mid}, which it does not contain")
-            try:
-                m = load_model(self.folder, rec, self.theories, self.facts_file)
-            except NotRebuilt as exc:
-                m = str(exc)
+            # identical model records (several claims on one bundle) are rebuilt and compared once
+            key = ("model", json.dumps(rec, sort_keys=True), self.facts_file)
+            memo = self.theories.setdefault("_memo", {})
+            if key not in memo:
+                try:
+                    memo[key] = load_model(self.folder, rec, self.theories, self.facts_file)
+                except NotRebuilt as exc:
+                    memo[key] = str(exc)
+            m = memo[key]
             self.models[mid] = m
         if isinstance(m, str):
             raise NotRebuilt(m)
@@ -135,6 +140,17 @@ def _int_rows(vectors: list[list[Fraction]]) -> tuple[list[list[int]], int]:
 
 
 def _facets(cl: _Claim, ch: dict) -> str:
+    """A facet list (memoised on its exact content: the same list in two claims is checked once)."""
+    memo = cl.theories.setdefault("_memo", {})
+    key = ("facets", json.dumps(ch, sort_keys=True), json.dumps(cl.doc["models"][ch["model"]], sort_keys=True),
+           json.dumps(cl.inside.get("vertices", []), default=str),
+           json.dumps([[r, q, str(b)] for r, q, b in cl.proven if r == "hull equation"], default=str))
+    if key not in memo:
+        memo[key] = _facets_unmemoised(cl, ch)
+    return memo[key]
+
+
+def _facets_unmemoised(cl: _Claim, ch: dict) -> str:
     import flint
 
     m = cl.model(ch["model"])
