@@ -500,8 +500,18 @@ def _affine_points(vertices, tight):
 
 def _certify_chunk(task) -> list[list[Fraction]]:
     """Farkas multipliers of several inequalities on one model (a pure function, for fan_out)."""
+    from ..check import decide
+
     model, ineqs = task
-    return [decided(model, t, guard=False).certificate.duals for t in ineqs]
+    out = []
+    for t in ineqs:
+        # decide() returns only multipliers that passed its exact checks (nogo.exact); a second re-check
+        # per facet would double the cost, and the bundle is re-verified as a whole by `nogo recheck`
+        r = decide(model, t, guard=False)
+        if not r.implied or r.certificate is None:
+            raise RuntimeError("a facet of the derivation is not certified valid; this is a bug in nogo")
+        out.append(r.certificate.duals)
+    return out
 
 
 def decide_facet_count(ctx: Context, claim: Claim, v: Verdict) -> None:
