@@ -516,3 +516,11 @@ def test_time_limit_gives_not_decided(tmp_path):
                  "  - {id: n, facet_count: {bundle: local-friendliness, facets: 932, time_limit: 0.01}}\n")
     (v,) = referee(p)[1]
     assert v.status == "NOT DECIDED" and "time limit" in v.summary and "vertices" in v.account
+
+
+def test_every_version_needs_its_evidence(bundle, tmp_path):
+    """The checker re-derives the 64 read-out versions itself; dropping one certificate is caught."""
+    ev = _copy(bundle, tmp_path)
+    _edit(ev, "lf-chsh-read-out", lambda d: d["checks"].pop(17))
+    bad = _failures(ev, "lf-chsh-read-out")
+    assert any("1 of the 64 versions have no evidence" in b for b in bad), bad
