@@ -38,7 +38,15 @@ def run(args) -> int:
         outs.append((o, ext))
     if args.workers < 1:
         raise InputError("--workers must be at least 1")
-    cf, verdicts, seconds = referee(args.claims, workers=args.workers)
+    import sys
+
+    def progress(i, n, cid):  # a line per claim on a terminal; nothing when piped
+        if sys.stderr.isatty():
+            print(f"\r  deciding {cid} ({i + 1}/{n}) …" + " " * 20, end="", file=sys.stderr, flush=True)
+
+    cf, verdicts, seconds = referee(args.claims, progress=progress, workers=args.workers)
+    if sys.stderr.isatty():
+        print("\r" + " " * 60 + "\r", end="", file=sys.stderr, flush=True)
     for o, ext in outs:
         write_text(o, render(ext, cf, verdicts))
     manifest = None
