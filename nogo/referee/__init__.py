@@ -4,9 +4,9 @@ Flow (one direction, one module per stage)::
 
     claims file (YAML)      claims.py    Claim dataclasses, every name checked with its line
       -> verdicts           decide.py    one function per claim kind, built on the public
-                            quantum.py   functions of the other stages (check, minimal, facets,
-                                         quantum, possibilistic); evidence records in the
-                                         plain-data layout of evidence.py
+                            sets.py      functions of the other stages (check, minimal, facets,
+                            patterns.py  quantum, possibilistic); evidence records in the
+                            quantum.py   plain-data layout of evidence.py
       -> report             render.py    terminal table, JSON, Markdown, LaTeX, HTML
       -> evidence bundle    evidence.py  one JSON file per claim, copies of the declarations,
                                          a content hash per file and for the bundle
