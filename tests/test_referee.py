@@ -487,14 +487,15 @@ def test_bad_claims_files(tmp_path, text, fragment):
 @pytest.mark.slow
 def test_example_claims_file_and_committed_report():
     """The demo claims file decides as its committed report says (invented data: demo only)."""
-    from nogo.referee.render import to_markdown
+    from nogo.referee.render import render
 
     path = E / "claims" / "sealed-aviaries-claims.yaml"
     cf, verdicts, seconds = referee(path)
     statuses = {v.status for v in verdicts}
     assert {"CONFIRMED", "REFUTED", "ILL-POSED"} <= statuses and 10 <= len(verdicts) <= 15
     committed = (E / "claims" / "sealed-aviaries-report.md").read_text()
-    assert to_markdown(cf, verdicts) == committed
+    assert render("md", cf, verdicts) == committed
+    assert "/work/" not in committed and str(ROOT) not in committed
     assert seconds < 60  # target 30 s on an idle machine (benchmarks/bench_referee.py measures it)
 
 

@@ -157,5 +157,14 @@ def to_html(cf: ClaimsFile, verdicts: list[Verdict]) -> str:
     return "\n".join(out) + "\n"
 
 
+def _relative(cf: ClaimsFile, text: str) -> str:
+    """Paths of declaration files shown relative to the claims file, so a report reads the same anywhere."""
+    import os
+    from pathlib import Path
+
+    base = str(Path(cf.path).resolve().parent) + os.sep
+    return text.replace(base, "")
+
+
 def render(fmt: str, cf: ClaimsFile, verdicts: list[Verdict]) -> str:
-    return {"md": to_markdown, "tex": to_latex, "html": to_html}[fmt](cf, verdicts)
+    return _relative(cf, {"md": to_markdown, "tex": to_latex, "html": to_html}[fmt](cf, verdicts))
