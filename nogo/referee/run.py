@@ -34,5 +34,11 @@ def referee(path: str | Path, progress=None, workers: int = 1) -> tuple[ClaimsFi
 
 def claims_meta(cf: ClaimsFile) -> dict[str, dict]:
     """What the evidence files say of each claim (the manuscript's words, the kind's keys)."""
+    import os
+
+    base = str(Path(cf.path).resolve().parent) + os.sep
+
+    def rel(v):
+        return v[len(base):] if isinstance(v, str) and v.startswith(base) else v
     return {c.id: {"where": c.where_text, "says": c.says,
-                   "params": {k: v for k, v in c.params.items() if not k.startswith("_")}} for c in cf.claims}
+                   "params": {k: rel(v) for k, v in c.params.items() if not k.startswith("_")}} for c in cf.claims}
