@@ -243,7 +243,7 @@ def _in_affine_span(model: LinearModel, functionals, max_entries: int = 4_000_00
     if any(f.num.dtype == object for f in fs):
         return False
     base = np.zeros((m, len(cols) + 1), dtype=np.int64)
-    base[:, :-1] = a.A[:, cols].toarray() * a.rhs_den[:, None]
+    base[:, :-1] = a.A.take_cols(cols).toarray() * a.rhs_den[:, None]
     base[:, -1] = a.rhs_num * a.row_den
     extra = np.zeros((len(fs), len(cols) + 1), dtype=np.int64)
     for k, f in enumerate(fs):

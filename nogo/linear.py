@@ -262,7 +262,8 @@ def _injective(relabel) -> bool:
 def compile_linear(theory: Theory, spec: str | list[str]) -> LinearModel:
     """Compile the bundle *spec* (a bundle name or assumption names) of *theory*."""
     import numpy as np
-    import scipy.sparse as sp
+
+    from .intarith import IntCSR
 
     label, assumptions = theory.resolve(spec)
     sc = theory.scenario
@@ -301,8 +302,8 @@ def compile_linear(theory: Theory, spec: str | list[str]) -> LinearModel:
         n_out *= len(p.outcomes)
     rest = strides[n_party - 1] if n_party else 1
     coord = col_s.astype(np.int64) * n_out + col_t // rest
-    O = sp.csr_matrix((np.ones(n_col, dtype=np.int64), coord, np.arange(n_col + 1, dtype=np.int64)),
-                      shape=(n_col, len(settings) * n_out))
+    O = IntCSR(np.arange(n_col + 1, dtype=np.int64), coord, np.ones(n_col, dtype=np.int64),
+               (n_col, len(settings) * n_out))
 
     notes: list[str] = []
     for o in sc.inner:
@@ -357,9 +358,7 @@ def compile_linear(theory: Theory, spec: str | list[str]) -> LinearModel:
     present[r] = True
     used = np.flatnonzero(present)
     new_id = np.cumsum(present) - 1
-    A = sp.csr_matrix((v, (new_id[r], c)), shape=(len(used), n_col))
-    A.sum_duplicates()
-    A.sort_indices()
+    A = IntCSR.from_coo(new_id[r], c, v, (len(used), n_col))
     # row sources: block, settings index and key of each kept row
     row_block = np.zeros(len(used), dtype=np.int32)
     row_s = np.zeros(len(used), dtype=np.int32)

@@ -79,11 +79,11 @@ class ModelArrays:
     column j observes ``O[j] / obs_den`` in full probability coordinates.
     """
 
-    A: Any  # scipy.sparse.csr_matrix, int64, m x n
+    A: Any  # nogo.intarith.IntCSR, m x n
     row_den: Any  # np.ndarray int64 (m,)
     rhs_num: Any  # np.ndarray int64 (m,)
     rhs_den: Any  # np.ndarray int64 (m,)
-    O: Any  # scipy.sparse.csr_matrix, int64, n x n_coord
+    O: Any  # nogo.intarith.IntCSR, n x n_coord
     obs_den: int = 1
 
     @property
@@ -97,9 +97,8 @@ class ModelArrays:
 def arrays_from_lists(rows, rhs, observe, n_col: int, n_coord: int) -> ModelArrays:
     """Integer arrays of a model given as dict rows (one pass over the entries)."""
     import numpy as np
-    import scipy.sparse as sp
 
-    from .intarith import lcm_all
+    from .intarith import IntCSR, lcm_all
 
     def csr(dict_rows, n):
         dens = np.ones(len(dict_rows), dtype=np.int64)
@@ -115,9 +114,8 @@ def arrays_from_lists(rows, rhs, observe, n_col: int, n_coord: int) -> ModelArra
                     idx.append(j)
                     val.append(v.numerator * (d // v.denominator))
             indptr.append(len(idx))
-        M = sp.csr_matrix((np.array(val, dtype=np.int64), np.array(idx, dtype=np.int32),
-                           np.array(indptr, dtype=np.int64)), shape=(len(dict_rows), n))
-        M.sort_indices()
+        rid = np.repeat(np.arange(len(dict_rows), dtype=np.int64), np.diff(np.array(indptr, dtype=np.int64)))
+        M = IntCSR.from_coo(rid, np.array(idx, dtype=np.int64), np.array(val, dtype=np.int64), (len(dict_rows), n))
         return M, dens
 
     A, row_den = csr(rows, n_col)
@@ -127,8 +125,8 @@ def arrays_from_lists(rows, rhs, observe, n_col: int, n_coord: int) -> ModelArra
     O, oden = csr(observe, n_coord)
     common = lcm_all(set(oden.tolist()))
     if common != 1:
-        O = sp.diags((common // oden).astype(np.int64)) @ O
-        O = O.tocsr().astype(np.int64)
+        k = np.repeat((common // oden).astype(np.int64), np.diff(O.indptr))
+        O = IntCSR(O.indptr, O.indices, O.data * k, O.shape)
     return ModelArrays(A, row_den, rhs_num, rhs_den, O, int(common))
 
 
@@ -228,7 +226,7 @@ class LinearModel:
         """The row matrix transposed (CSR), made once."""
         at = self.extra.get("_AT")
         if at is None:
-            at = self.arrays.A.T.tocsr()
+            at = self.arrays.A.T
             self.extra["_AT"] = at
         return at
 
@@ -268,6 +266,9 @@ class LinearModel:
         coords = self.scenario.coordinates()
         x = point if isinstance(point, ExactVector) else ExactVector.from_fractions(list(point))
         a = self.arrays
-        vals = matvec(a.O.T.tocsr(), x.num)
+        ot = self.extra.get("_OT")
+        if ot is None:
+            ot = self.extra["_OT"] = a.O.T
+        vals = matvec(ot, x.num)
         den = x.den * a.obs_den
         return {coords[i]: Fraction(int(v), den) for i, v in enumerate(np.asarray(vals).tolist())}

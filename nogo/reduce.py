@@ -254,14 +254,58 @@ class ZeroStep(Step):
         return ExactVector(as_int(num), D)
 
 
+def spanning_forest(n: int, u: np.ndarray, v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(component label per node, edge ids of a spanning forest) of the graph with edges (u[e], v[e]).
+
+    Borůvka's method with edge ids as distinct weights: each round every
+    component takes its lowest incident edge to another component (such
+    choices never close a cycle), then components are relabelled by
+    hooking and pointer jumping.  All rounds are array operations.
+    """
+    comp = np.arange(n, dtype=np.int64)
+    ids = np.arange(len(u), dtype=np.int64)
+    chosen_all = []
+    big = np.iinfo(np.int64).max
+    while True:
+        cu, cv = comp[u[ids]], comp[v[ids]]
+        live = cu != cv
+        ids, cu, cv = ids[live], cu[live], cv[live]
+        if len(ids) == 0:
+            break
+        best = np.full(n, big, dtype=np.int64)
+        np.minimum.at(best, cu, ids)
+        np.minimum.at(best, cv, ids)
+        mark = np.zeros(len(u), dtype=bool)
+        mark[best[best != big]] = True
+        chosen = np.flatnonzero(mark)
+        chosen_all.append(chosen)
+        a, b = comp[u[chosen]], comp[v[chosen]]
+        lab = np.arange(n, dtype=np.int64)
+        while True:
+            la, lb = lab[a], lab[b]
+            lo = np.minimum(la, lb)
+            before = lab.copy()
+            np.minimum.at(lab, la, lo)
+            np.minimum.at(lab, lb, lo)
+            while True:
+                nxt = lab[lab]
+                if np.array_equal(nxt, lab):
+                    break
+                lab = nxt
+            if np.array_equal(lab, before):
+                break
+        comp = lab[comp]
+    forest = np.concatenate(chosen_all) if chosen_all else np.zeros(0, dtype=np.int64)
+    return comp, forest
+
+
 def _merge(model: LinearModel) -> MergeStep | None:
-    import scipy.sparse as sp
-    from scipy.sparse.csgraph import connected_components, minimum_spanning_tree
+    from .intarith import IntCSR
 
     a = model.arrays
     A = a.A
     m, n = A.shape
-    nnz = np.diff(A.indptr)
+    nnz = A.row_nnz()
     two = np.flatnonzero((nnz == 2) & (a.rhs_num == 0))
     if len(two) == 0:
         return None
@@ -272,47 +316,39 @@ def _merge(model: LinearModel) -> MergeStep | None:
     if len(rows) == 0:
         return None
     p0 = A.indptr[rows]
-    u, v, alpha = A.indices[p0].astype(np.int64), A.indices[p0 + 1].astype(np.int64), A.data[p0]
-    # spanning forest of the merge graph; edge weight = row id + 1 identifies the row
-    order = np.lexsort((rows, v, u))
-    uu, vv, rr = u[order], v[order], rows[order]
-    first = np.ones(len(uu), dtype=bool)
-    first[1:] = (uu[1:] != uu[:-1]) | (vv[1:] != vv[:-1])
-    g = sp.csr_matrix(((rr[first] + 1).astype(np.float64), (uu[first], vv[first])), shape=(n, n))
-    forest = minimum_spanning_tree(g).tocoo()
-    fr = forest.data.astype(np.int64) - 1
-    fu, fv = u[np.searchsorted(rows, fr)], v[np.searchsorted(rows, fr)]
-    falpha = A.data[A.indptr[fr]]
-    ncls, cls = connected_components(g, directed=False)
-    cls = cls.astype(np.int64)
-    # canonical class order: by first member
-    firsts = np.full(ncls, n, dtype=np.int64)
-    np.minimum.at(firsts, cls, np.arange(n))
-    rank = np.empty(ncls, dtype=np.int64)
-    rank[np.argsort(firsts, kind="stable")] = np.arange(ncls)
-    cls = rank[cls]
-    firsts = np.sort(firsts)
+    u, v = A.indices[p0], A.indices[p0 + 1]
+    comp, forest = spanning_forest(n, u, v)
+    fr = rows[forest]
+    fu, fv, falpha = u[forest], v[forest], A.data[A.indptr[fr]]
+    # classes numbered in the order of their first member
+    firsts = np.full(n, n, dtype=np.int64)
+    np.minimum.at(firsts, comp, np.arange(n, dtype=np.int64))
+    roots = np.flatnonzero(firsts < n)
+    order = np.argsort(firsts[roots], kind="stable")
+    rank = np.full(n, -1, dtype=np.int64)
+    rank[roots[order]] = np.arange(len(roots))
+    cls = rank[comp]
+    ncls = len(roots)
+    firsts = firsts[roots[order]]
     size = np.bincount(cls, minlength=ncls)
     # the other rows, with columns summed per class
     is_merge = np.zeros(m, dtype=bool)
     is_merge[rows] = True
     other = np.flatnonzero(~is_merge)
-    M = sp.csr_matrix((np.ones(n, dtype=np.int64), (np.arange(n), cls)), shape=(n, ncls))
-    B = (A[other] @ M).tocsr()
-    B.eliminate_zeros()
-    B.sort_indices()
+    B = A.take_rows(other).sum_cols(cls, ncls)
     rn, rd, den = a.rhs_num[other], a.rhs_den[other], a.row_den[other]
-    bnnz = np.diff(B.indptr)
+    bnnz = B.row_nnz()
     keep = ~((bnnz == 0) & (rn == 0))  # 0 = 0
     # duplicates: equal rows with equal right sides (hash, then confirm exactly)
     rng = np.random.default_rng(12345)
-    h1 = B @ rng.random(ncls)
-    h2 = B @ rng.random(ncls)
-    keys = np.rec.fromarrays([h1, h2, rn, rd, den, bnnz])
-    order = np.argsort(keys, kind="stable")
-    ks = keys[order]
+    h1 = _float_dot(B, rng.random(ncls))
+    h2 = _float_dot(B, rng.random(ncls))
+    order = np.lexsort((bnnz, den, rd, rn, h2, h1))
+    k1, k2 = h1[order], h2[order]
     same = np.zeros(len(order), dtype=bool)
-    same[1:] = ks[1:] == ks[:-1]
+    same[1:] = ((k1[1:] == k1[:-1]) & (k2[1:] == k2[:-1]) & (rn[order][1:] == rn[order][:-1])
+                & (rd[order][1:] == rd[order][:-1]) & (den[order][1:] == den[order][:-1])
+                & (bnnz[order][1:] == bnnz[order][:-1]))
     start = np.maximum.accumulate(np.where(same, 0, np.arange(len(order))))
     for pos in np.flatnonzero(same).tolist():
         i, rep = order[pos], order[start[pos]]
@@ -320,17 +356,26 @@ def _merge(model: LinearModel) -> MergeStep | None:
             keep[i] = False
     kept_local = np.flatnonzero(keep)
     kept_rows = other[kept_local]
-    B = B[kept_local]
-    O = (M.T @ a.O).tocsr()
+    B = B.take_rows(kept_local)
+    O = a.O.T.sum_cols(cls, ncls).T
     arrays = ModelArrays(B, den[kept_local], rn[kept_local], rd[kept_local], O, a.obs_den)
-    merged = n - ncls
     dup = len(other) - len(kept_local)
-    summary = (f"merge: {merged} columns forced equal to others by {len(rows)} rows q_j = q_k "
+    summary = (f"merge: {n - ncls} columns forced equal to others by {len(rows)} rows q_j = q_k "
                f"({n} -> {ncls} columns); {dup} rows that became duplicates or 0 = 0 dropped")
     after = _derived(model, arrays, MergedColumns(model.columns, model.scenario, firsts, size),
                      SubSources(model.sources, kept_rows), summary)
     return MergeStep("merge", summary, model, after, cls=cls, kept_rows=kept_rows,
                      edges=(fu.astype(np.int64), fv.astype(np.int64), fr, falpha.astype(np.int64)))
+
+
+def _float_dot(B, w: np.ndarray) -> np.ndarray:
+    """B @ w in floats, summed in index order (equal rows give bit-equal results; a hash only)."""
+    out = np.zeros(B.shape[0])
+    if B.nnz:
+        prod = B.data * w[B.indices]
+        nzr = np.flatnonzero(B.row_nnz())
+        out[nzr] = np.add.reduceat(prod, B.indptr[nzr])
+    return out
 
 
 def _row_equal(B, i: int, j: int) -> bool:
@@ -343,28 +388,26 @@ def _zero(model: LinearModel) -> ZeroStep | None:
     a = model.arrays
     A = a.A
     m, n = A.shape
-    nnz = np.diff(A.indptr)
-    pos = np.zeros(m, dtype=np.int64)
-    neg = np.zeros(m, dtype=np.int64)
-    rid = np.repeat(np.arange(m), nnz)
-    np.add.at(pos, rid, A.data > 0)
-    np.add.at(neg, rid, A.data < 0)
+    nnz = A.row_nnz()
+    rid = A.row_ids()
+    pos = np.bincount(rid[A.data > 0], minlength=m)
+    neg = np.bincount(rid[A.data < 0], minlength=m)
     zr = np.flatnonzero((a.rhs_num == 0) & (nnz > 0) & ((pos == 0) | (neg == 0)))
     if len(zr) == 0:
         return None
     dead = np.zeros(n, dtype=bool)
-    sub = A[zr]
-    dead[np.unique(sub.indices)] = True
+    dead[A.take_rows(zr).indices] = True
     kept_cols = np.flatnonzero(~dead)
-    rest = np.setdiff1d(np.arange(m), zr)
-    B = A[rest][:, kept_cols].tocsr()
-    B.sort_indices()
+    is_zero = np.zeros(m, dtype=bool)
+    is_zero[zr] = True
+    rest = np.flatnonzero(~is_zero)
+    B = A.take_rows(rest).take_cols(kept_cols)
     rn = a.rhs_num[rest]
-    keep = ~((np.diff(B.indptr) == 0) & (rn == 0))
+    keep = ~((B.row_nnz() == 0) & (rn == 0))
     kept_rows = rest[keep]
-    B = B[np.flatnonzero(keep)]
+    B = B.take_rows(np.flatnonzero(keep))
     arrays = ModelArrays(B, a.row_den[kept_rows], a.rhs_num[kept_rows], a.rhs_den[kept_rows],
-                         a.O[kept_cols].tocsr(), a.obs_den)
+                         a.O.take_rows(kept_cols), a.obs_den)
     summary = (f"zero: {int(dead.sum())} columns forced to 0 by {len(zr)} rows with entries of one sign "
                f"and right side 0 ({n} -> {len(kept_cols)} columns)")
     after = _derived(model, arrays, SubColumns(model.columns, kept_cols), SubSources(model.sources, kept_rows),
