@@ -171,7 +171,9 @@ def marginal_probes(scenario, parties_list) -> list[tuple[tuple[str, ...], Inequ
         idx = [sc.party_index(p) for p in parties]
         others = [i for i in range(len(sc.parties)) if i not in idx]
         for xs in itertools.product(*(sc.parties[i].settings for i in idx)):
-            for outs in itertools.product(*(sc.parties[i].outcomes for i in idx)):
+            # the last joint outcome's probe is minus the sum of the others plus a difference of two
+            # normalisation rows, so it vanishes on the model whenever they do: left out
+            for outs in list(itertools.product(*(sc.parties[i].outcomes for i in idx)))[:-1]:
                 # marginal at settings s (others varying) minus at the others' first settings
                 for ys in itertools.product(*(sc.parties[i].settings for i in others)):
                     base = [None] * len(sc.parties)
@@ -198,10 +200,9 @@ def _guard_answer(model: LinearModel, key) -> str | None:
     sc = model.scenario
     probes = marginal_probes(sc, key)
     costs = [model.cost_vector(p) for _, p in probes]
-    if _in_affine_span(model, costs):
-        return None
-    for (parties, probe), c in zip(probes, costs):
-        if not any(c.num.tolist()):
+    spanned = _span_members(model, costs)
+    for (parties, probe), c, inside in zip(probes, costs, spanned):
+        if inside or not any(c.num.tolist()):
             continue
         for sign in (1, -1):
             r = decide(model, Inequality(sc, {k: sign * v for k, v in probe.coeffs.items()}, Fraction(0)),
@@ -211,46 +212,141 @@ def _guard_answer(model: LinearModel, key) -> str | None:
     return None
 
 
-def _in_affine_span(model: LinearModel, functionals, max_entries: int = 4_000_000) -> bool:
-    """Exact test: is every f·q = 0 forced by the equalities rows·q = rhs alone?
+def _in_affine_span(model: LinearModel, functionals) -> bool:
+    """Exact test: is every f·q = 0 forced by the equalities rows·q = rhs alone?  (See :func:`_span_members`.)"""
+    return all(_span_members(model, functionals))
 
-    True when each (f, 0) lies in the row space of [rows | rhs]; then f·q = 0
-    on the whole affine hull, so certainly on the model.  (Sufficient, not
-    necessary: positivity can force more; the caller then asks the LP.)
-    Built from the integer arrays (row i scaled by its denominators) and
-    decided by one exact integer rank pair (python-flint); False, without
-    deciding, when the dense matrix would exceed *max_entries*.
+
+def _span_members(model: LinearModel, functionals, max_entries: int = 500_000) -> list[bool]:
+    """For each f: True when f·q = 0 is shown forced by the equalities rows·q = rhs alone.
+
+    True means (f, 0) is a combination y of the rows: Aᵀy = f exactly and
+    b·y = 0, so f·q = y·b = 0 on the whole affine hull, certainly on the
+    model.  (Sufficient, not necessary: positivity can force more; the
+    caller then asks the LP.)  The combination is sought on the reduced
+    model (:mod:`nogo.reduce`): as a basic solution of Aᵀλ = f from HiGHS
+    (a vertex, whose small denominators rounding recovers), else, when
+    rounding misses and the system is small, by an exact fraction-free row
+    reduction of [Aᵀ | f] (python-flint).  Either way the combination is
+    lifted through the reductions and checked in integer arithmetic on the
+    unreduced model, so neither the floats nor the reductions are trusted.
     """
+    from .intarith import ExactVector
+    from .reduce import reduce_model
+
+    fs = [f if isinstance(f, ExactVector) else ExactVector.from_fractions(list(f)) for f in functionals]
+    out = [not f.nonzero().size for f in fs]
+    todo = [k for k, done in enumerate(out) if not done]
+    if not todo:
+        return out
+    red = reduce_model(model)
+    m, n = red.model.arrays.shape
+    if m == 0:
+        return out
+    reds = {k: red.reduce_cost(fs[k]) for k in todo}
+    for k, status in zip(todo, _span_by_lp(model, red, [fs[k] for k in todo], [reds[k] for k in todo])):
+        if status == "shown":
+            out[k] = True
+        elif status == "rounding" and n * (m + 1) <= max_entries and reds[k].num.dtype != object:
+            out[k] = _span_by_rref(model, red, red.model.arrays.A.toarray().T, [fs[k]], [reds[k]])
+    return out
+
+
+def _verify_span(model: LinearModel, red, f, cand) -> bool:
+    """Exact: the lifted combination y gives Aᵀy = f and b·y = 0 on the unreduced model."""
+    import numpy as np
+
+    from .intarith import reduced_costs
+
+    y = red.lift_duals(cand, f) if red.steps else cand
+    R_, _ = reduced_costs(model.arrays, model.transposed(), f, y)
+    return not np.any(R_ != 0) and dual_bound(model, y) == 0
+
+
+def _span_by_lp(model, red, fs, reds) -> list[str]:
+    """Float guide: a basic solution of Aᵀλ = f (λ free) from HiGHS, rounded; checked exactly.
+
+    Per f: "shown" (checked exactly), "outside" (HiGHS finds no solution:
+    the LP probes will decide), "rounding" (a float solution that no small
+    denominators reproduce).
+    """
+    import highspy
+    import numpy as np
+
+    from .exact import round_vector
+    from .lp import new_highs
+
+    rm = red.model
+    a = rm.arrays
+    m, n = a.shape
+    AT = rm.transposed()  # n x m: row j of Aᵀ lists the rows meeting column j
+    val = AT.data.astype(float) / a.row_den.astype(float)[AT.indices]
+    h = new_highs()
+    lp = highspy.HighsLp()
+    lp.num_col_, lp.num_row_ = m, n
+    lp.col_cost_ = np.zeros(m)
+    lp.col_lower_ = np.full(m, -highspy.kHighsInf)
+    lp.col_upper_ = np.full(m, highspy.kHighsInf)
+    rhs = _float_vec(reds[0])
+    lp.row_lower_, lp.row_upper_ = rhs, rhs.copy()
+    lp.a_matrix_.format_ = highspy.MatrixFormat.kRowwise
+    lp.a_matrix_.start_ = AT.indptr.astype(np.int32)
+    lp.a_matrix_.index_ = AT.indices.astype(np.int32)
+    lp.a_matrix_.value_ = val
+    lp.a_matrix_.num_col_, lp.a_matrix_.num_row_ = m, n
+    h.passModel(lp)
+    every = np.arange(n, dtype=np.int32)
+    out = []
+    for k, (f, r) in enumerate(zip(fs, reds)):
+        if k:
+            rhs = _float_vec(r)
+            h.changeRowsBounds(n, every, rhs, rhs)  # the same matrix: HiGHS starts from the last basis
+        h.run()
+        if h.getModelStatus() != highspy.HighsModelStatus.kOptimal:
+            out.append("outside")
+            continue
+        lam = np.array(h.getSolution().col_value)
+        ok = any(_verify_span(model, red, f, cand) for cand in round_vector(lam))
+        out.append("shown" if ok else "rounding")
+    return out
+
+
+def _span_by_rref(model, red, AT, fs, reds) -> bool:
+    """Exact fraction-free row reduction of [Aᵀ | F] (python-flint); lifted and checked exactly."""
     import flint
     import numpy as np
 
     from .intarith import ExactVector
 
-    a = model.arrays
-    m, n = a.shape
-    fs = [f if isinstance(f, ExactVector) else ExactVector.from_fractions(list(f)) for f in functionals]
-    fs = [f for f in fs if f.nonzero().size]
-    if not fs:
-        return True
-    # columns that no row and no functional touches do not change a rank
-    touched = np.zeros(n, dtype=bool)
-    touched[a.A.indices] = True
-    for f in fs:
-        touched[f.nonzero()] = True
-    cols = np.flatnonzero(touched)
-    if (m + len(fs)) * (len(cols) + 1) > max_entries:
-        return False
-    if any(f.num.dtype == object for f in fs):
-        return False
-    base = np.zeros((m, len(cols) + 1), dtype=np.int64)
-    base[:, :-1] = a.A.take_cols(cols).toarray() * a.rhs_den[:, None]
-    base[:, -1] = a.rhs_num * a.row_den
-    extra = np.zeros((len(fs), len(cols) + 1), dtype=np.int64)
-    for k, f in enumerate(fs):
-        extra[k, :-1] = f.num[cols]
-    r0 = flint.fmpz_mat(base.tolist()).rank() if m else 0
-    r1 = flint.fmpz_mat(np.vstack([base, extra]).tolist()).rank()
-    return r0 == r1
+    a = red.model.arrays
+    m = a.shape[0]
+    M = np.hstack([AT, np.stack([r.num for r in reds], axis=1)])
+    R, d, rank = flint.fmpz_mat(M.tolist()).rref()
+    rows = R.tolist()
+    pivots = []
+    for i in range(rank):
+        p = next(j for j, x in enumerate(rows[i]) if x != 0)
+        if p >= m:
+            return False  # some f is not a combination of the rows
+        pivots.append(p)
+    d = int(d)
+    sign = 1 if d > 0 else -1
+    d = abs(d)
+    for kk, (f, r) in enumerate(zip(fs, reds)):
+        num = np.zeros(m, dtype=object)
+        for i, p in enumerate(pivots):
+            num[p] = sign * int(rows[i][m + kk]) * int(a.row_den[p])  # λ_p = μ_p den_p / D with Aᵀμ = r.num
+        if not _verify_span(model, red, f, ExactVector(num, d * r.den).normalised()):
+            return False
+    return True
+
+
+def _float_vec(v):
+    import numpy as np
+
+    if v.num.dtype == object:
+        return np.array([float(x) for x in v])
+    return v.num.astype(float) / float(v.den)
 
 
 def _solve(model: LinearModel, cost: ExactVector, reducer) -> tuple[ExactOptimum, list[str], tuple[int, int], list[str]]:

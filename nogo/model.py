@@ -241,9 +241,14 @@ class LinearModel:
         got = self.extra.get(key)
         if got is not None:
             return got
-        w = ineq.vector()
-        wden = lcm_all({Fraction(x).denominator for x in w})
-        W = np.array([int(Fraction(x) * wden) for x in w], dtype=object)
+        index = self.extra.get("_coord_index")
+        if index is None:
+            index = self.extra["_coord_index"] = {c: i for i, c in enumerate(self.scenario.coordinates())}
+        items = [(index[c], Fraction(v)) for c, v in ineq.coeffs.items() if v]
+        wden = lcm_all({v.denominator for _, v in items})
+        W = np.zeros(len(index), dtype=object)
+        for i, v in items:
+            W[i] = v.numerator * (wden // v.denominator)
         a = self.arrays
         C = matvec(a.O, W.astype(np.int64) if max((abs(int(x)) for x in W), default=0) < 2 ** 40 else W)
         vec = ExactVector(C, wden * a.obs_den).normalised()
