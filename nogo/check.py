@@ -259,7 +259,7 @@ def _verify_span(model: LinearModel, red, f, cand) -> bool:
     from .intarith import reduced_costs
 
     y = red.lift_duals(cand, f) if red.steps else cand
-    R_, _ = reduced_costs(model.arrays, model.transposed(), f, y)
+    R_, _ = reduced_costs(model.arrays, None, f, y)
     return not np.any(R_ != 0) and dual_bound(model, y) == 0
 
 

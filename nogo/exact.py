@@ -86,7 +86,7 @@ def reduced_cost_vector(model: LinearModel, cost, duals) -> ExactVector:
     """Aᵀy − c, column by column (must be >= 0 for a valid certificate)."""
     from .intarith import reduced_costs
 
-    R, G = reduced_costs(model.arrays, model.transposed(), _vec(cost), _vec(duals))
+    R, G = reduced_costs(model.arrays, None, _vec(cost), _vec(duals))
     return ExactVector(R, G)
 
 

@@ -189,9 +189,16 @@ class IntCSR:
         c = np.asarray(c, dtype=np.int64)
         v = np.asarray(v, dtype=np.int64)
         m, n = int(shape[0]), int(shape[1])
+        if len(r) > 1:
+            dr = r[1:] - r[:-1]
+            if bool(np.all((dr > 0) | ((dr == 0) & (c[1:] > c[:-1])))) and bool(np.all(v != 0)):
+                indptr = np.zeros(m + 1, dtype=np.int64)  # already in row-major order, no repeats
+                np.cumsum(np.bincount(r, minlength=m), out=indptr[1:])
+                return cls(indptr, c, v, (m, n))
         key = r * max(n, 1) + c
-        order = np.argsort(key, kind="stable")
-        key, v = key[order], v[order]
+        if len(key) > 1 and not bool(np.all(key[1:] >= key[:-1])):
+            order = np.argsort(key)
+            key, v = key[order], v[order]
         if len(key):
             first = np.ones(len(key), dtype=bool)
             first[1:] = key[1:] != key[:-1]
@@ -226,6 +233,38 @@ class IntCSR:
                 self._bound = int(max(abs(int(self.data.max())), abs(int(self.data.min())))) * \
                     int(self.row_nnz().max())
         return self._bound
+
+    def rdot(self, y: np.ndarray) -> np.ndarray:
+        """Exact Aᵀ y without forming the transpose (integer y).
+
+        Float sums of integers are exact below 2**53: bincount is used when
+        a bound on every partial sum proves that, int64 scatter-adds when
+        int64 is safe, 20-bit limbs otherwise.
+        """
+        n = self.shape[1]
+        if self.nnz == 0:
+            return np.zeros(n, dtype=np.int64)
+        ya = max_abs(y)
+        da = max(abs(int(self.data.max())), abs(int(self.data.min())))
+        colmax = int(np.bincount(self.indices, minlength=n).max())
+        bound = ya * da * colmax
+        if y.dtype != object and bound < 2 ** 52:
+            w = (self.data * y[self.row_ids()]).astype(float)
+            return np.rint(np.bincount(self.indices, weights=w, minlength=n)).astype(np.int64)
+        if y.dtype != object and bound < SAFE:
+            out = np.zeros(n, dtype=np.int64)
+            np.add.at(out, self.indices, self.data * y[self.row_ids()])
+            return out
+        yo = y.astype(object)
+        out = np.zeros(n, dtype=object)
+        for part, sign in ((np.where(yo > 0, yo, 0), 1), (np.where(yo < 0, -yo, 0), -1)):
+            shift = 0
+            while any(part):
+                limb = np.array([int(v) & ((1 << _LIMB) - 1) for v in part], dtype=np.int64)
+                out = out + self.rdot(limb).astype(object) * (sign << shift)
+                part = np.array([int(v) >> _LIMB for v in part], dtype=object)
+                shift += _LIMB
+        return as_int(out)
 
     def dot_int64(self, x: np.ndarray) -> np.ndarray:
         out = np.zeros(self.shape[0], dtype=np.int64)
@@ -293,7 +332,7 @@ def reduced_costs(arrays, AT, cost: ExactVector, y: ExactVector) -> tuple[np.nda
         Z = y.num
     else:
         Z = as_int(y.num.astype(object) * (L // arrays.row_den).astype(object))
-    AtZ = matvec(AT, Z)  # over y.den * L
+    AtZ = arrays.A.rdot(Z) if AT is None else matvec(AT, Z)  # over y.den * L
     d1 = y.den * L
     G = d1 * cost.den // math.gcd(d1, cost.den)
     return sub(mul(AtZ, G // d1), mul(cost.num, G // cost.den)), G

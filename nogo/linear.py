@@ -344,9 +344,14 @@ def compile_linear(theory: Theory, spec: str | list[str]) -> LinearModel:
                 row0 = offset + r * K
                 a0, a1 = start[si], start[si + 1]
                 b0, b1 = start[base[si]], start[base[si] + 1]
-                r_parts += [row0 + key[a0:a1], row0 + key[b0:b1]]
-                c_parts += [np.arange(a0, a1, dtype=np.int64), np.arange(b0, b1, dtype=np.int64)]
-                v_parts += [np.ones(a1 - a0, dtype=np.int64), -np.ones(b1 - b0, dtype=np.int64)]
+                # this settings tuple's rows in row-major order (so the matrix needs no global sort)
+                kk = np.concatenate([key[a0:a1], key[b0:b1]])
+                cc = np.concatenate([np.arange(a0, a1, dtype=np.int64), np.arange(b0, b1, dtype=np.int64)])
+                vv = np.concatenate([np.ones(a1 - a0, dtype=np.int64), -np.ones(b1 - b0, dtype=np.int64)])
+                order = np.argsort(kk * n_col + cc)
+                r_parts.append(row0 + kk[order])
+                c_parts.append(cc[order])
+                v_parts.append(vv[order])
             blocks.append(_Block(a.name, "independent", ci, pr.kept, [events[i].outcomes for i in idx],
                                  nonhub, base))
             block_of_offset.append((offset, len(nonhub) * K, len(blocks) - 1))

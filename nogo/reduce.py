@@ -118,7 +118,7 @@ def reduced_cost_numerators(model: LinearModel, cost: ExactVector, y: ExactVecto
     """(R, G) with Aᵀy − c = R / G exactly, column by column."""
     from .intarith import reduced_costs
 
-    return reduced_costs(model.arrays, model.transposed(), cost, y)
+    return reduced_costs(model.arrays, None, cost, y)
 
 
 # -- steps -----------------------------------------------------------------------
