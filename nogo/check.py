@@ -21,12 +21,21 @@ from dataclasses import dataclass, field
 from fractions import Fraction
 from typing import Sequence
 
+from typing import TYPE_CHECKING
+
 from .errors import InputError
-from .exact import (ExactFailure, ExactOptimum, check_duals, check_point, dot, dual_bound, exact_optimum,
-                    reduced_cost_vector)
 from .inequality import Coord, Inequality, Marginal
-from .intarith import ExactVector
 from .model import LinearModel, RowSource
+
+if TYPE_CHECKING:  # numpy, flint and HiGHS load only when a decision is made (nogo --help stays fast)
+    from .exact import ExactOptimum
+    from .intarith import ExactVector
+
+
+def _ex():
+    from . import exact
+
+    return exact
 
 
 @dataclass
@@ -128,6 +137,9 @@ class CheckResult:
 
 
 def _certificate(model: LinearModel, cost, duals) -> Certificate:
+    from .exact import dual_bound, reduced_cost_vector
+    from .intarith import ExactVector
+
     y = duals if isinstance(duals, ExactVector) else ExactVector.from_fractions(list(duals))
     r = reduced_cost_vector(model, cost, y)
     pos = int((r.num > 0).sum())
@@ -135,6 +147,9 @@ def _certificate(model: LinearModel, cost, duals) -> Certificate:
 
 
 def _counterexample(model: LinearModel, cost, point) -> Counterexample:
+    from .exact import dot
+    from .intarith import ExactVector
+
     x = point if isinstance(point, ExactVector) else ExactVector.from_fractions(list(point))
     return Counterexample(model.behaviour(x), JointEntries(model, x), dot(cost, x), x)
 
@@ -256,6 +271,7 @@ def _verify_span(model: LinearModel, red, f, cand) -> bool:
     """Exact: the lifted combination y gives Aᵀy = f and b·y = 0 on the unreduced model."""
     import numpy as np
 
+    from .exact import dual_bound
     from .intarith import reduced_costs
 
     y = red.lift_duals(cand, f) if red.steps else cand
@@ -351,6 +367,7 @@ def _float_vec(v):
 
 def _solve(model: LinearModel, cost: ExactVector, reducer) -> tuple[ExactOptimum, list[str], tuple[int, int], list[str]]:
     """Exact optimum over *model*; through the reductions when they shrink it (evidence lifted and checked here)."""
+    from .exact import ExactFailure, ExactOptimum, check_duals, check_point, dot, dual_bound, exact_optimum
     notes: list[str] = []
     if reducer is not False:
         from .reduce import reduce_model
@@ -385,6 +402,7 @@ def decide(model: LinearModel, ineq: Inequality, guard: bool = True, reducer=Non
     False to solve the model as compiled, or a function model -> Reduced.
     Evidence always refers to *model* itself and has been checked on it.
     """
+    from .exact import ExactFailure
     if ineq.scenario.coordinates() != model.scenario.coordinates():
         raise InputError("the inequality and the theory describe different scenarios")
     if guard and ineq.marginals:
@@ -419,6 +437,7 @@ def recheck(model: LinearModel, result: CheckResult) -> str | None:
     Uses only exact integer arithmetic on the compiled (unreduced) rows, with
     the model's cached arrays: no LP solver, no reduction.
     """
+    from .exact import check_duals, check_point, dot, dual_bound
     cost = model.cost_vector(result.inequality)
     if result.implied:
         if result.certificate is None:

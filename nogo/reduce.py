@@ -340,9 +340,9 @@ def _merge(model: LinearModel) -> MergeStep | None:
     bnnz = B.row_nnz()
     keep = ~((bnnz == 0) & (rn == 0))  # 0 = 0
     # duplicates: equal rows with equal right sides (hash, then confirm exactly)
-    rng = np.random.default_rng(12345)
-    h1 = _float_dot(B, rng.random(ncls))
-    h2 = _float_dot(B, rng.random(ncls))
+    ar = np.arange(ncls, dtype=np.uint64)
+    h1 = _float_dot(B, ((ar * np.uint64(2654435761) + np.uint64(97)) % np.uint64(2 ** 32)).astype(float) / 2 ** 32)
+    h2 = _float_dot(B, ((ar * np.uint64(40503) + np.uint64(7919)) % np.uint64(65521)).astype(float) / 65521)
     order = np.lexsort((bnnz, den, rd, rn, h2, h1))
     k1, k2 = h1[order], h2[order]
     same = np.zeros(len(order), dtype=bool)
