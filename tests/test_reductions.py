@@ -190,3 +190,42 @@ def test_reductions_are_computed_once_per_model():
     th = _bell(3)
     model = compile_bundle(th, "Bell-local")
     assert reduce_model(model) is reduce_model(model)
+
+
+def test_marginal_guard_once_per_model_and_inherited_in_a_search():
+    # I3322 (Collins & Gisin, J. Phys. A 37, 1775 (2004)) uses marginals: refused below no-signalling.
+    from nogo.minimal import ask, find_minimal_sets, split_pool
+
+    th = load_theory(ROOT / "theories" / "friends-2x3.yaml")
+    ineq = resolve_inequality(th.scenario, "I3322")
+    res = find_minimal_sets(th, ineq, None)
+    pool, background, _ = split_pool(th, None)
+    # every subset, decided alone (fresh guard, no inheritance), agrees with the search's statuses
+    import itertools
+
+    for k in range(len(pool) + 1):
+        for sub in itertools.combinations(pool, k):
+            a = ask(th, sub, background, ineq)
+            got = res.status_of(sub)
+            if a.status == "refused":
+                assert got in ("refused", "not implied")
+            else:
+                assert got == a.status
+    model = compile_bundle(th, ["agency-A", "agency-B"])
+    from nogo.check import marginal_guard
+
+    marginal_guard(model, ineq)
+    assert list(model.extra["_guard"].values()) == [None]  # stored with the model
+
+
+def test_array_models_pickle_and_keep_their_names():
+    import pickle
+
+    th = _bell(2)
+    model = compile_bundle(th, "Bell-local")
+    back = pickle.loads(pickle.dumps(model))
+    assert back.shape == model.shape
+    assert back.columns[5] == model.columns[5]
+    assert back.sources[7].detail == model.sources[7].detail
+    r = decide(back, resolve_inequality(th.scenario, "CHSH"))
+    assert r.maximum == 2 and recheck(back, r) is None
