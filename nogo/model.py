@@ -158,6 +158,17 @@ class LinearModel:
         self.extra = extra if extra is not None else {}
         self._arrays = arrays
 
+    def __getstate__(self):
+        # caches (reductions, transposes, costs, fingerprints) are rebuilt on demand: keep payloads small
+        st = dict(self.__dict__)
+        st["extra"] = {k: v for k, v in self.extra.items()
+                       if not ((isinstance(k, str) and k.startswith("_")) or (isinstance(k, tuple) and k and
+                                                                                str(k[0]).startswith("_")))}
+        return st
+
+    def __setstate__(self, st):
+        self.__dict__.update(st)
+
     def __repr__(self) -> str:
         m, n = self.shape
         return f"LinearModel({self.label!r}, kind={self.kind}, {m} rows x {n} columns)"
