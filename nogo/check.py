@@ -24,7 +24,7 @@ from typing import Sequence
 from typing import TYPE_CHECKING
 
 from .errors import InputError
-from .inequality import Coord, Inequality, Marginal
+from .inequality import Coord, Inequality
 from .model import LinearModel, RowSource
 
 if TYPE_CHECKING:  # numpy, flint and HiGHS load only when a decision is made (nogo --help stays fast)

@@ -43,8 +43,8 @@ from typing import Sequence
 
 import numpy as np
 
-from .intarith import ExactVector, as_int, lcm_all, matvec, mul
-from .model import Column, LinearModel, ModelArrays, RowSource
+from .intarith import ExactVector, as_int, lcm_all, mul
+from .model import Column, LinearModel, ModelArrays
 
 
 # -- views of the reduced model's names --------------------------------------------
@@ -300,8 +300,6 @@ def spanning_forest(n: int, u: np.ndarray, v: np.ndarray) -> tuple[np.ndarray, n
 
 
 def _merge(model: LinearModel) -> MergeStep | None:
-    from .intarith import IntCSR
-
     a = model.arrays
     A = a.A
     m, n = A.shape
