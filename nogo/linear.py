@@ -228,13 +228,14 @@ def linear_size(theory: Theory, spec: str | list[str]) -> LinearSize:
         total *= d
     ties = _ties(sc, events)
     settings = sc.setting_tuples()
-    cols = 0
+    per_s = {}
     for s in settings:
         n = total
         for (lab, k, relabel, pi, at) in ties:
             if s[pi] == at:
                 n //= dims[k] if _injective(relabel) and dims[k] == dims[lab] else 1
-        cols += n
+        per_s[s] = n
+    cols = sum(per_s.values())
     rows = len(settings)
     nnz = cols
     notes: list[str] = []
@@ -248,9 +249,9 @@ def linear_size(theory: Theory, spec: str | list[str]) -> LinearSize:
             K = 1
             for i in pr.idx:
                 K *= dims[i]
-            nonhub = sum(1 for s in settings if pr.base[s] != s)
-            rows += nonhub * K
-            nnz += 2 * cols * nonhub // max(1, len(settings))
+            nonhub = [s for s in settings if pr.base[s] != s]
+            rows += len(nonhub) * K
+            nnz += sum(per_s[s] + per_s[pr.base[s]] for s in nonhub)
     return LinearSize(cols, rows, nnz, total)
 
 

@@ -146,6 +146,7 @@ def test_array_compiler_matches_the_slow_encoding(seed):
     size = linear_size(th, "all")
     assert size.columns == len(cols)
     assert size.rows >= len(rows)
+    assert size.nonzeros >= sum(len(r) for r, _ in rows)
     assert len(model.sources) == len(rows)
     assert all(isinstance(model.sources[i].detail, str) for i in range(len(rows)))
 
