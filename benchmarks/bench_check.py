@@ -1,29 +1,40 @@
-"""One `nogo check` on the three-setting two-lab scenario, stage by stage.
+"""`nogo check` stage by stage, and end to end against what a user would write by hand.
 
-Run: python benchmarks/bench_check.py [--repeat N]
+Run: python benchmarks/bench_check.py [--repeat N] [--settings M] [--tree DIR]
 
-Prints the median time of each stage (load, compile, float solve, exact
-optimum and certificate, independent re-check) and the ratio of the whole to
-the bare HiGHS solve of the same matrix, all measured in one run.  Ratios,
-not absolute times, are what to compare across machines.
+Part 1 (as before): one `check` on the three-setting two-lab scenario
+(friends-2x3, local-friendliness, I3322 by default), median time of each
+stage (load, compile, parse, marginal guard, decide, re-check) and the ratio
+of the whole to the bare HiGHS solve of the same compiled matrix.
+
+Part 2: CHSH on Bell-local with two parties and M settings each (default 6),
+end to end in fresh processes (interpreter start and imports included), as
+`python -m nogo check` and as the deterministic-strategy LP a researcher
+writes by hand (numpy enumerates the 4^M strategies, HiGHS solves one row
+"weights sum to 1"; see benchmarks/bench_bell_local.py).  ``--tree DIR``
+also times `nogo check` from another checkout (e.g. an older commit
+unpacked with `git archive`), so before/after ratios come from one run.
+Peak memory is the child's maximum resident set.  Ratios, not absolute
+times, are what to compare across machines; nothing here fails.
 """
 
 from __future__ import annotations
 
 import argparse
+import os
 import statistics
+import subprocess
+import sys
+import tempfile
 import time
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parent.parent
+sys.path.insert(0, str(ROOT))
+sys.path.insert(0, str(ROOT / "benchmarks"))
 
 
-def main() -> None:
-    ap = argparse.ArgumentParser()
-    ap.add_argument("--repeat", type=int, default=20)
-    ap.add_argument("--inequality", default="I3322")
-    args = ap.parse_args()
-
+def stages(repeat: int, inequality: str) -> None:
     from nogo.catalog import load_catalog, resolve_inequality
     from nogo.check import decide, marginal_guard, recheck
     from nogo.compile import compile_bundle
@@ -32,13 +43,13 @@ def main() -> None:
 
     cat = load_catalog()
     times: dict[str, list[float]] = {k: [] for k in ("load", "compile", "parse", "guard", "decide", "recheck", "bare HiGHS")}
-    for _ in range(args.repeat):
+    for _ in range(repeat):
         t0 = time.perf_counter()
         th = load_theory(ROOT / "theories" / "friends-2x3.yaml")
         t1 = time.perf_counter()
         model = compile_bundle(th, "local-friendliness")
         t2 = time.perf_counter()
-        ineq = resolve_inequality(th.scenario, args.inequality, cat)
+        ineq = resolve_inequality(th.scenario, inequality, cat)
         t3 = time.perf_counter()
         if ineq.marginals:
             marginal_guard(model, ineq)
@@ -55,12 +66,65 @@ def main() -> None:
             times[k].append(v)
     med = {k: statistics.median(v) for k, v in times.items()}
     whole = sum(v for k, v in med.items() if k != "bare HiGHS")
-    print(f"check friends-2x3 local-friendliness {args.inequality}: verdict {r.verdict}, maximum {r.maximum}, "
+    print(f"check friends-2x3 local-friendliness {inequality}: verdict {r.verdict}, maximum {r.maximum}, "
           f"model {model.shape[0]} x {model.shape[1]}")
     for k, v in med.items():
         print(f"  {k:<12} {v * 1e3:9.2f} ms")
     print(f"  {'whole':<12} {whole * 1e3:9.2f} ms")
     print(f"ratio whole / bare HiGHS solve: {whole / med['bare HiGHS']:.1f}")
+
+
+def _child(cmd: list[str], cwd: Path) -> tuple[float, float, str]:
+    """Wall seconds, peak RSS in MiB (GNU time when present) and stdout of one fresh process."""
+    timer = ["/usr/bin/time", "-f", "%M"] if os.path.exists("/usr/bin/time") else []
+    t0 = time.perf_counter()
+    out = subprocess.run(timer + cmd, capture_output=True, text=True, cwd=cwd)
+    t = time.perf_counter() - t0
+    rss = float("nan")
+    if timer:
+        try:
+            rss = int(out.stderr.strip().splitlines()[-1]) / 1024
+        except (ValueError, IndexError):
+            pass
+    if out.returncode not in (0, 1):
+        raise SystemExit(out.stderr[-2000:])
+    return t, rss, out.stdout
+
+
+def end_to_end(m: int, tree: str | None, repeat: int) -> None:
+    from bench_bell_local import HAND, theory_text
+
+    with tempfile.TemporaryDirectory() as tmp:
+        path = os.path.join(tmp, f"bell-2x{m}.yaml")
+        Path(path).write_text(theory_text(m))
+        hand = os.path.join(tmp, "hand.py")
+        Path(hand).write_text(HAND)
+        rows = [("hand-written strategy LP", [sys.executable, hand, str(m)], ROOT),
+                ("nogo check (this tree)", [sys.executable, "-m", "nogo", "check", path, "Bell-local", "CHSH"], ROOT)]
+        if tree:
+            rows.append((f"nogo check ({tree})", [sys.executable, "-m", "nogo", "check", path, "Bell-local", "CHSH"],
+                         Path(tree)))
+        res = {}
+        for name, cmd, cwd in rows:
+            runs = [_child(cmd, cwd) for _ in range(repeat)]
+            res[name] = (statistics.median(r[0] for r in runs), max(r[1] for r in runs), runs[-1][2])
+        assert "IMPLIED" in res["nogo check (this tree)"][2]
+        base = res["hand-written strategy LP"][0]
+        print(f"\nBell-local 2 x {m} settings, CHSH, end to end (fresh processes, median of {repeat}):")
+        for name, (t, rss, _) in res.items():
+            print(f"  {name:<40} {t:7.2f} s  peak {rss:6.0f} MiB  ratio to hand-written {t / base:5.2f}")
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser()
+    ap.add_argument("--repeat", type=int, default=20)
+    ap.add_argument("--inequality", default="I3322")
+    ap.add_argument("--settings", type=int, default=6)
+    ap.add_argument("--tree", default=None, help="another checkout to time `nogo check` from (before/after)")
+    ap.add_argument("--end-repeat", type=int, default=3)
+    args = ap.parse_args()
+    stages(args.repeat, args.inequality)
+    end_to_end(args.settings, args.tree, args.end_repeat)
 
 
 if __name__ == "__main__":

@@ -19,11 +19,23 @@ from __future__ import annotations
 import itertools
 from dataclasses import dataclass, field
 from fractions import Fraction
+from typing import Sequence
+
+from typing import TYPE_CHECKING
 
 from .errors import InputError
-from .exact import ExactFailure, dual_bound, duals_violation, exact_optimum, point_violation, reduced_costs
-from .inequality import Coord, Inequality, Marginal
+from .inequality import Coord, Inequality
 from .model import LinearModel, RowSource
+
+if TYPE_CHECKING:  # numpy, flint and HiGHS load only when a decision is made (nogo --help stays fast)
+    from .exact import ExactOptimum
+    from .intarith import ExactVector
+
+
+def _ex():
+    from . import exact
+
+    return exact
 
 
 @dataclass
@@ -32,28 +44,75 @@ class WeightedRow:
     weight: Fraction
 
 
+class WeightedRows(Sequence):
+    """The rows of a certificate with a non-zero multiplier, written out on demand."""
+
+    def __init__(self, sources: Sequence, duals: ExactVector):
+        self.sources, self.duals = sources, duals
+        self.index = duals.nonzero()
+
+    def __len__(self) -> int:
+        return len(self.index)
+
+    def _one(self, k: int) -> WeightedRow:
+        i = int(self.index[k])
+        return WeightedRow(self.sources[i], self.duals[i])
+
+    def __getitem__(self, k):
+        if isinstance(k, slice):
+            return [self._one(i) for i in range(*k.indices(len(self)))]
+        if k < 0:
+            k += len(self)
+        return self._one(k)
+
+
 @dataclass
 class Certificate:
     """c·q <= Σ y_i (row_i · q) − Σ s_j q_j = Σ y_i rhs_i for every feasible q."""
 
-    rows: list[WeightedRow]  # rows with non-zero multiplier
+    rows: Sequence[WeightedRow]  # rows with non-zero multiplier
     positivity: int  # how many q_j >= 0 enter (with positive weight s_j)
     bound: Fraction  # Σ y_i rhs_i
-    duals: list[Fraction] = field(repr=False, default_factory=list)
+    duals: ExactVector | list = field(repr=False, default_factory=list)
 
     def by_assumption(self) -> dict[str, int]:
+        src = getattr(self.rows, "sources", None)
+        if src is not None and hasattr(src, "count_by_assumption"):
+            return src.count_by_assumption(self.rows.index)
         out: dict[str, int] = {}
         for r in self.rows:
             out[r.source.assumption] = out.get(r.source.assumption, 0) + 1
         return out
 
 
+class JointEntries(Sequence):
+    """Non-zero entries of a model point, described on demand: (name, weight)."""
+
+    def __init__(self, model: LinearModel, point: ExactVector):
+        self.columns, self.scenario, self.point = model.columns, model.scenario, point
+        self.index = point.nonzero()
+
+    def __len__(self) -> int:
+        return len(self.index)
+
+    def _one(self, k: int) -> tuple[str, Fraction]:
+        j = int(self.index[k])
+        return self.columns[j].describe(self.scenario), self.point[j]
+
+    def __getitem__(self, k):
+        if isinstance(k, slice):
+            return [self._one(i) for i in range(*k.indices(len(self)))]
+        if k < 0:
+            k += len(self)
+        return self._one(k)
+
+
 @dataclass
 class Counterexample:
     behaviour: dict[Coord, Fraction]  # observed p(a|s)
-    joint: list[tuple[str, Fraction]]  # non-zero entries of the model point, described
+    joint: Sequence[tuple[str, Fraction]]  # non-zero entries of the model point, described
     value: Fraction
-    point: list[Fraction] = field(repr=False, default_factory=list)
+    point: ExactVector | list = field(repr=False, default_factory=list)
 
 
 @dataclass
@@ -69,22 +128,30 @@ class CheckResult:
     notes: list[str] = field(default_factory=list)
     model_kind: str = "linear"
     shape: tuple[int, int] = (0, 0)
+    reductions: list[str] = field(default_factory=list)  # the reduction steps that ran (words)
+    solved_shape: tuple[int, int] | None = None  # the model the LP solved (after reductions)
 
     @property
     def implied(self) -> bool:
         return self.verdict == "implied"
 
 
-def _certificate(model: LinearModel, cost, duals: list[Fraction]) -> Certificate:
-    rows = [WeightedRow(model.sources[i], y) for i, y in enumerate(duals) if y]
-    pos = sum(1 for r in reduced_costs(model, cost, duals) if r > 0)
-    return Certificate(rows, pos, dual_bound(model, duals), duals)
+def _certificate(model: LinearModel, cost, duals) -> Certificate:
+    from .exact import dual_bound, reduced_cost_vector
+    from .intarith import ExactVector
+
+    y = duals if isinstance(duals, ExactVector) else ExactVector.from_fractions(list(duals))
+    r = reduced_cost_vector(model, cost, y)
+    pos = int((r.num > 0).sum())
+    return Certificate(WeightedRows(model.sources, y), pos, dual_bound(model, y), y)
 
 
-def _counterexample(model: LinearModel, cost, point: list[Fraction]) -> Counterexample:
-    joint = [(model.columns[j].describe(model.scenario), x) for j, x in enumerate(point) if x]
-    value = sum((c * x for c, x in zip(cost, point) if x), Fraction(0))
-    return Counterexample(model.behaviour(point), joint, value, point)
+def _counterexample(model: LinearModel, cost, point) -> Counterexample:
+    from .exact import dot
+    from .intarith import ExactVector
+
+    x = point if isinstance(point, ExactVector) else ExactVector.from_fractions(list(point))
+    return Counterexample(model.behaviour(x), JointEntries(model, x), dot(cost, x), x)
 
 
 def marginal_guard(model: LinearModel, ineq: Inequality) -> None:
@@ -97,12 +164,31 @@ def marginal_guard(model: LinearModel, ineq: Inequality) -> None:
     silently answer a different question (DESIGN.md §2).
     """
     sc = model.scenario
-    probes: list[tuple[Marginal, Inequality]] = []
-    for m in sorted(ineq.marginals, key=lambda m: m.parties):
-        idx = [sc.party_index(p) for p in m.parties]
+    key = tuple(sorted({m.parties for m in ineq.marginals}))
+    cache = model.extra.setdefault("_guard", {})
+    if key not in cache:
+        cache[key] = _guard_answer(model, key)
+    who = cache[key]
+    if who is not None:
+        raise InputError(
+            f"'{ineq.name or ineq.text}' uses the marginal of {who}, but bundle '{model.label}' "
+            f"lets it depend on the other parties' settings (it does not imply no-signalling "
+            f"for {who}); its value, and the maximum, depend on which setting is meant",
+            hint="write the inequality with joint probabilities at explicit settings, "
+                 "or check it under a bundle that implies no-signalling")
+
+
+def marginal_probes(scenario, parties_list) -> list[tuple[tuple[str, ...], Inequality]]:
+    """Functionals "marginal at s minus marginal at s0" whose vanishing is no-signalling for each marginal."""
+    sc = scenario
+    probes: list[tuple[tuple[str, ...], Inequality]] = []
+    for parties in parties_list:
+        idx = [sc.party_index(p) for p in parties]
         others = [i for i in range(len(sc.parties)) if i not in idx]
         for xs in itertools.product(*(sc.parties[i].settings for i in idx)):
-            for outs in itertools.product(*(sc.parties[i].outcomes for i in idx)):
+            # the last joint outcome's probe is minus the sum of the others plus a difference of two
+            # normalisation rows, so it vanishes on the model whenever they do: left out
+            for outs in list(itertools.product(*(sc.parties[i].outcomes for i in idx)))[:-1]:
                 # marginal at settings s (others varying) minus at the others' first settings
                 for ys in itertools.product(*(sc.parties[i].settings for i in others)):
                     base = [None] * len(sc.parties)
@@ -120,54 +206,210 @@ def marginal_guard(model: LinearModel, ineq: Inequality) -> None:
                         if tuple(a[i] for i in idx) == outs:
                             coeffs[(tuple(s), a)] = coeffs.get((tuple(s), a), 0) + 1
                             coeffs[(tuple(s0), a)] = coeffs.get((tuple(s0), a), 0) - 1
-                    probes.append((m, Inequality(sc, coeffs, Fraction(0))))
-    if _in_affine_span(model, [model.cost(p) for _, p in probes]):
-        return
-    for m, probe in probes:
+                    probes.append((parties, Inequality(sc, coeffs, Fraction(0))))
+    return probes
+
+
+def _guard_answer(model: LinearModel, key) -> str | None:
+    """None when the bundle implies no-signalling for every marginal in *key*, else the parties that fail."""
+    sc = model.scenario
+    probes = marginal_probes(sc, key)
+    costs = [model.cost_vector(p) for _, p in probes]
+    spanned = _span_members(model, costs)
+    for (parties, probe), c, inside in zip(probes, costs, spanned):
+        if inside or not any(c.num.tolist()):
+            continue
         for sign in (1, -1):
             r = decide(model, Inequality(sc, {k: sign * v for k, v in probe.coeffs.items()}, Fraction(0)),
                        guard=False)
             if not r.implied:
-                who = ",".join(m.parties)
-                raise InputError(
-                    f"'{ineq.name or ineq.text}' uses the marginal of {who}, but bundle '{model.label}' "
-                    f"lets it depend on the other parties' settings (it does not imply no-signalling "
-                    f"for {who}); its value, and the maximum, depend on which setting is meant",
-                    hint="write the inequality with joint probabilities at explicit settings, "
-                         "or check it under a bundle that implies no-signalling")
+                return ",".join(parties)
+    return None
 
 
-def _in_affine_span(model: LinearModel, functionals: list[list[Fraction]]) -> bool:
-    """Exact test: is every f·q = 0 forced by the equalities rows·q = rhs alone?
+def _in_affine_span(model: LinearModel, functionals) -> bool:
+    """Exact test: is every f·q = 0 forced by the equalities rows·q = rhs alone?  (See :func:`_span_members`.)"""
+    return all(_span_members(model, functionals))
 
-    True when each (f, 0) lies in the row space of [rows | rhs]; then f·q = 0
-    on the whole affine hull, so certainly on the model.  (Sufficient, not
-    necessary: positivity can force more; the caller then asks the LP.)
+
+def _span_members(model: LinearModel, functionals, max_entries: int = 500_000) -> list[bool]:
+    """For each f: True when f·q = 0 is shown forced by the equalities rows·q = rhs alone.
+
+    True means (f, 0) is a combination y of the rows: Aᵀy = f exactly and
+    b·y = 0, so f·q = y·b = 0 on the whole affine hull, certainly on the
+    model.  (Sufficient, not necessary: positivity can force more; the
+    caller then asks the LP.)  The combination is sought on the reduced
+    model (:mod:`nogo.reduce`): as a basic solution of Aᵀλ = f from HiGHS
+    (a vertex, whose small denominators rounding recovers), else, when
+    rounding misses and the system is small, by an exact fraction-free row
+    reduction of [Aᵀ | f] (python-flint).  Either way the combination is
+    lifted through the reductions and checked in integer arithmetic on the
+    unreduced model, so neither the floats nor the reductions are trusted.
     """
+    from .intarith import ExactVector
+    from .reduce import reduce_model
+
+    fs = [f if isinstance(f, ExactVector) else ExactVector.from_fractions(list(f)) for f in functionals]
+    out = [not f.nonzero().size for f in fs]
+    todo = [k for k, done in enumerate(out) if not done]
+    if not todo:
+        return out
+    red = reduce_model(model)
+    m, n = red.model.arrays.shape
+    if m == 0:
+        return out
+    reds = {k: red.reduce_cost(fs[k]) for k in todo}
+    for k, status in zip(todo, _span_by_lp(model, red, [fs[k] for k in todo], [reds[k] for k in todo])):
+        if status == "shown":
+            out[k] = True
+        elif status == "rounding" and n * (m + 1) <= max_entries and reds[k].num.dtype != object:
+            out[k] = _span_by_rref(model, red, red.model.arrays.A.toarray().T, [fs[k]], [reds[k]])
+    return out
+
+
+def _verify_span(model: LinearModel, red, f, cand) -> bool:
+    """Exact: the lifted combination y gives Aᵀy = f and b·y = 0 on the unreduced model."""
+    import numpy as np
+
+    from .exact import dual_bound
+    from .intarith import reduced_costs
+
+    y = red.lift_duals(cand, f) if red.steps else cand
+    R_, _ = reduced_costs(model.arrays, None, f, y)
+    return not np.any(R_ != 0) and dual_bound(model, y) == 0
+
+
+def _span_by_lp(model, red, fs, reds) -> list[str]:
+    """Float guide: a basic solution of Aᵀλ = f (λ free) from HiGHS, rounded; checked exactly.
+
+    Per f: "shown" (checked exactly), "outside" (HiGHS finds no solution:
+    the LP probes will decide), "rounding" (a float solution that no small
+    denominators reproduce).
+    """
+    import highspy
+    import numpy as np
+
+    from .exact import round_vector
+    from .lp import new_highs
+
+    rm = red.model
+    a = rm.arrays
+    m, n = a.shape
+    AT = rm.transposed()  # n x m: row j of Aᵀ lists the rows meeting column j
+    val = AT.data.astype(float) / a.row_den.astype(float)[AT.indices]
+    h = new_highs()
+    lp = highspy.HighsLp()
+    lp.num_col_, lp.num_row_ = m, n
+    lp.col_cost_ = np.zeros(m)
+    lp.col_lower_ = np.full(m, -highspy.kHighsInf)
+    lp.col_upper_ = np.full(m, highspy.kHighsInf)
+    rhs = _float_vec(reds[0])
+    lp.row_lower_, lp.row_upper_ = rhs, rhs.copy()
+    lp.a_matrix_.format_ = highspy.MatrixFormat.kRowwise
+    lp.a_matrix_.start_ = AT.indptr.astype(np.int32)
+    lp.a_matrix_.index_ = AT.indices.astype(np.int32)
+    lp.a_matrix_.value_ = val
+    lp.a_matrix_.num_col_, lp.a_matrix_.num_row_ = m, n
+    h.passModel(lp)
+    every = np.arange(n, dtype=np.int32)
+    out = []
+    for k, (f, r) in enumerate(zip(fs, reds)):
+        if k:
+            rhs = _float_vec(r)
+            h.changeRowsBounds(n, every, rhs, rhs)  # the same matrix: HiGHS starts from the last basis
+        h.run()
+        if h.getModelStatus() != highspy.HighsModelStatus.kOptimal:
+            out.append("outside")
+            continue
+        lam = np.array(h.getSolution().col_value)
+        ok = any(_verify_span(model, red, f, cand) for cand in round_vector(lam))
+        out.append("shown" if ok else "rounding")
+    return out
+
+
+def _span_by_rref(model, red, AT, fs, reds) -> bool:
+    """Exact fraction-free row reduction of [Aᵀ | F] (python-flint); lifted and checked exactly."""
     import flint
+    import numpy as np
 
-    n = len(model.columns)
-    def mat(rows):
-        M = flint.fmpq_mat(len(rows), n + 1)
-        for i, (row, b) in enumerate(rows):
-            for j, v in row.items():
-                M[i, j] = flint.fmpq(v.numerator, v.denominator)
-            M[i, n] = flint.fmpq(b.numerator, b.denominator)
-        return M
-    base = list(zip(model.rows, model.rhs))
-    extra = [({j: v for j, v in enumerate(f) if v}, Fraction(0)) for f in functionals]
-    return mat(base).rank() == mat(base + extra).rank()
+    from .intarith import ExactVector
+
+    a = red.model.arrays
+    m = a.shape[0]
+    M = np.hstack([AT, np.stack([r.num for r in reds], axis=1)])
+    R, d, rank = flint.fmpz_mat(M.tolist()).rref()
+    rows = R.tolist()
+    pivots = []
+    for i in range(rank):
+        p = next(j for j, x in enumerate(rows[i]) if x != 0)
+        if p >= m:
+            return False  # some f is not a combination of the rows
+        pivots.append(p)
+    d = int(d)
+    sign = 1 if d > 0 else -1
+    d = abs(d)
+    for kk, (f, r) in enumerate(zip(fs, reds)):
+        num = np.zeros(m, dtype=object)
+        for i, p in enumerate(pivots):
+            num[p] = sign * int(rows[i][m + kk]) * int(a.row_den[p])  # λ_p = μ_p den_p / D with Aᵀμ = r.num
+        if not _verify_span(model, red, f, ExactVector(num, d * r.den).normalised()):
+            return False
+    return True
 
 
-def decide(model: LinearModel, ineq: Inequality, guard: bool = True) -> CheckResult:
-    """Decide whether the model's set satisfies *ineq*, with exact evidence."""
+def _float_vec(v):
+    import numpy as np
+
+    if v.num.dtype == object:
+        return np.array([float(x) for x in v])
+    return v.num.astype(float) / float(v.den)
+
+
+def _solve(model: LinearModel, cost: ExactVector, reducer) -> tuple[ExactOptimum, list[str], tuple[int, int], list[str]]:
+    """Exact optimum over *model*; through the reductions when they shrink it (evidence lifted and checked here)."""
+    from .exact import ExactFailure, ExactOptimum, check_duals, check_point, dot, dual_bound, exact_optimum
+    notes: list[str] = []
+    if reducer is not False:
+        from .reduce import reduce_model
+
+        red = (reducer or reduce_model)(model)
+        if red.steps:
+            try:
+                ro = exact_optimum(red.model, red.reduce_cost(cost))
+            except ExactFailure:
+                ro = None  # infeasible or unbounded there: let the unreduced model say it
+            bad = "no multipliers on the reduced model"
+            if ro is not None and ro.duals is not None:
+                x = red.lift_point(ro.point)
+                y = red.lift_duals(ro.duals, cost)
+                bad = check_point(model, x) or check_duals(model, cost, y)
+                if bad is None:
+                    v, b = dot(cost, x), dual_bound(model, y)
+                    if v == b:
+                        return (ExactOptimum(v, x, y, ro.method + "; lifted to the unreduced model and checked there"),
+                                red.summary(), red.model.shape, notes)
+                    bad = f"lifted point gives {v}, lifted multipliers {b}"
+            if ro is not None:
+                notes.append(f"the reduced model's evidence failed its exact check on the unreduced model ({bad}); "
+                             "solved the unreduced model instead")
+    return exact_optimum(model, cost), [], model.shape, notes
+
+
+def decide(model: LinearModel, ineq: Inequality, guard: bool = True, reducer=None) -> CheckResult:
+    """Decide whether the model's set satisfies *ineq*, with exact evidence.
+
+    ``reducer``: None for the standard reductions (:mod:`nogo.reduce`),
+    False to solve the model as compiled, or a function model -> Reduced.
+    Evidence always refers to *model* itself and has been checked on it.
+    """
+    from .exact import ExactFailure
     if ineq.scenario.coordinates() != model.scenario.coordinates():
         raise InputError("the inequality and the theory describe different scenarios")
     if guard and ineq.marginals:
         marginal_guard(model, ineq)
-    cost = model.cost(ineq)
+    cost = model.cost_vector(ineq)
     try:
-        opt = exact_optimum(model, cost)
+        opt, steps, solved, extra_notes = _solve(model, cost, reducer)
     except ExactFailure as exc:
         if str(exc) == "infeasible":
             raise InputError(f"bundle '{model.label}' admits no behaviour at all: its assumptions contradict each other"
@@ -181,21 +423,27 @@ def decide(model: LinearModel, ineq: Inequality, guard: bool = True) -> CheckRes
     method = opt.method
     if implied and cert is None:
         method += "; no Farkas multipliers were recovered, the bound rests on z3's exact optimum"
+    if steps:
+        m, n = solved
+        method += f"; LP solved on the reduced model ({m} rows x {n} columns)"
     return CheckResult(model.label, model.assumptions, ineq, "implied" if implied else "not implied",
-                       opt.value, cert, ce, method, list(model.notes), model.kind, model.shape)
+                       opt.value, cert, ce, method, list(model.notes) + [f"reduction {t}" for t in steps] + extra_notes,
+                       model.kind, model.shape, steps, solved)
 
 
 def recheck(model: LinearModel, result: CheckResult) -> str | None:
     """Independent exact re-check of a result's evidence; None when it holds.
 
-    Uses only exact arithmetic on the compiled rows: no LP solver.
+    Uses only exact integer arithmetic on the compiled (unreduced) rows, with
+    the model's cached arrays: no LP solver, no reduction.
     """
-    cost = model.cost(result.inequality)
+    from .exact import check_duals, check_point, dot, dual_bound
+    cost = model.cost_vector(result.inequality)
     if result.implied:
         if result.certificate is None:
             return "no certificate"
         y = result.certificate.duals
-        bad = duals_violation(model, cost, y)
+        bad = check_duals(model, cost, y)
         if bad:
             return bad
         if dual_bound(model, y) > result.inequality.bound:
@@ -204,10 +452,10 @@ def recheck(model: LinearModel, result: CheckResult) -> str | None:
     ce = result.counterexample
     if ce is None:
         return "no counterexample"
-    bad = point_violation(model, ce.point)
+    bad = check_point(model, ce.point)
     if bad:
         return bad
-    value = sum((c * x for c, x in zip(cost, ce.point) if x), Fraction(0))
+    value = dot(cost, ce.point)
     if value <= result.inequality.bound or value != ce.value:
         return "the counterexample does not violate the inequality"
     if result.inequality.value(ce.behaviour) != value:

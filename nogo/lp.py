@@ -12,43 +12,60 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from fractions import Fraction
-
-import highspy
-import numpy as np
+from typing import TYPE_CHECKING, Any
 
 from .model import LinearModel
+
+if TYPE_CHECKING:  # heavy imports stay inside the functions that solve
+    import highspy
+    import numpy as np
 
 
 @dataclass
 class FloatAnswer:
     status: str  # "optimal" | "infeasible" | "unbounded" | other HiGHS status text
     value: float | None
-    x: np.ndarray | None
-    row_dual: np.ndarray | None
+    x: Any  # np.ndarray | None
+    row_dual: Any  # np.ndarray | None
     basic_cols: list[int] | None
     basic_rows: list[int] | None
 
 
 def _matrix(model: LinearModel):
-    start, index, value = [0], [], []
-    for row in model.rows:
-        for j, v in row.items():
-            index.append(j)
-            value.append(float(v))
-        start.append(len(index))
-    return np.array(start, dtype=np.int32), np.array(index, dtype=np.int32), np.array(value, dtype=float)
+    """Row-wise float matrix (start, index, value) of the model, from its integer arrays."""
+    import numpy as np
+
+    a = model.arrays
+    A = a.A
+    val = A.data.astype(float)
+    if np.any(a.row_den != 1):
+        val = val / np.repeat(a.row_den.astype(float), np.diff(A.indptr))
+    return A.indptr.astype(np.int32), A.indices.astype(np.int32), val
+
+
+def _floats(v) -> Any:
+    import numpy as np
+
+    from .intarith import ExactVector
+
+    if isinstance(v, ExactVector):
+        num = v.num.astype(float) if v.num.dtype != object else np.array([float(Fraction(int(x), 1)) for x in v.num])
+        return num / float(v.den) if v.den < 2 ** 53 else np.array([float(x) for x in v])
+    return np.array([float(c) for c in v], dtype=float)
 
 
 _quiet = False
 
 
-def new_highs() -> highspy.Highs:
+def new_highs() -> "highspy.Highs":
     """A silent HiGHS instance.
 
     HiGHS prints a banner on stdout when the first instance is made, before
     any option can be set; that would corrupt ``--json`` output, so the
     first construction runs with file descriptor 1 pointed at /dev/null.
     """
+    import highspy
+
     global _quiet
     if _quiet:
         h = highspy.Highs()
@@ -72,16 +89,20 @@ def new_highs() -> highspy.Highs:
     return h
 
 
-def make_highs(model: LinearModel, cost: list[Fraction] | np.ndarray, sense: str = "max") -> highspy.Highs:
-    """A HiGHS instance holding the model with the given objective."""
+def make_highs(model: LinearModel, cost, sense: str = "max") -> "highspy.Highs":
+    """A HiGHS instance holding the model with the given objective (Fractions, floats or an ExactVector)."""
+    import highspy
+    import numpy as np
+
     h = new_highs()
     lp = highspy.HighsLp()
     m, n = model.shape
     lp.num_col_, lp.num_row_ = n, m
-    lp.col_cost_ = np.array([float(c) for c in cost], dtype=float)
+    lp.col_cost_ = cost if isinstance(cost, np.ndarray) and cost.dtype == float else _floats(cost)
     lp.col_lower_ = np.zeros(n)
     lp.col_upper_ = np.full(n, highspy.kHighsInf)
-    rhs = np.array([float(b) for b in model.rhs], dtype=float)
+    a = model.arrays
+    rhs = a.rhs_num.astype(float) / a.rhs_den.astype(float)
     lp.row_lower_, lp.row_upper_ = rhs, rhs.copy()
     cache = model.extra.get("_csr")
     if cache is None:
@@ -95,7 +116,10 @@ def make_highs(model: LinearModel, cost: list[Fraction] | np.ndarray, sense: str
     return h
 
 
-def maximise(model: LinearModel, cost: list[Fraction] | np.ndarray) -> FloatAnswer:
+def maximise(model: LinearModel, cost) -> FloatAnswer:
+    import highspy
+    import numpy as np
+
     h = make_highs(model, cost)
     h.run()
     status = h.getModelStatus()

@@ -116,15 +116,39 @@ class Answer:
         return self.status in IMPLYING
 
 
+@dataclass
+class GuardMemory:
+    """Marginal-guard answers of one search, reused by monotonicity.
+
+    A set that passes the guard (implies no-signalling for the inequality's
+    marginals) passes it with every superset, whose set of behaviours is
+    smaller; a refused set is refused with every subset.  The pool, the
+    background and the inequality are fixed within one search.
+    """
+
+    passed: list[frozenset] = field(default_factory=list)
+    refused: list[tuple[frozenset, str]] = field(default_factory=list)
+    computed: int = 0  # guards actually computed (the rest were inherited)
+
+    def lookup(self, s: frozenset) -> tuple[bool, str] | None:
+        if any(t <= s for t in self.passed):
+            return True, ""
+        for t, msg in self.refused:
+            if s <= t:
+                return False, msg
+        return None
+
+
 def ask(theory: Theory, members: Iterable[str], background: Iterable[str], ineq: Inequality,
-        options: dict | None = None, models: dict | None = None) -> Answer:
+        options: dict | None = None, models: dict | None = None, guards: GuardMemory | None = None) -> Answer:
     """Decide whether ``members`` (plus ``background``) imply ``ineq``; exact evidence, re-checked.
 
     Parameters: the theory; pool members of the subset; background
     assumptions added to every bundle; the inequality; options passed to
     :func:`nogo.compile.compile_bundle` (e.g. ``max_columns``); an optional
     dict used as a cache of compiled models keyed by the name tuple (the
-    same subset, another inequality).  Returns an :class:`Answer`.
+    same subset, another inequality); an optional :class:`GuardMemory`
+    shared by the calls of one search.  Returns an :class:`Answer`.
     Raises InputError for problems that are not about this subset (a model
     too large, a missing compiler).
     """
@@ -144,10 +168,21 @@ def ask(theory: Theory, members: Iterable[str], background: Iterable[str], ineq:
         if models is not None:
             models[key] = model
     if ineq.marginals:
-        try:
-            marginal_guard(model, ineq)
-        except InputError as exc:
-            return Answer(subset, "refused", message=exc.message, seconds=time.perf_counter() - t0)
+        known = guards.lookup(subset) if guards is not None else None
+        if known is not None and not known[0]:
+            return Answer(subset, "refused", message=known[1] + " (inherited: a larger set of this search is refused)",
+                          seconds=time.perf_counter() - t0)
+        if known is None:
+            try:
+                marginal_guard(model, ineq)
+                if guards is not None:
+                    guards.passed.append(subset)
+                    guards.computed += 1
+            except InputError as exc:
+                if guards is not None:
+                    guards.refused.append((subset, exc.message))
+                    guards.computed += 1
+                return Answer(subset, "refused", message=exc.message, seconds=time.perf_counter() - t0)
     try:
         r = decide(model, ineq, guard=False)
     except InputError as exc:
@@ -281,6 +316,7 @@ class _Knowledge:
         self.options, self.models, self.deadline, self.progress = options, models, deadline, progress
         self.answers: dict[frozenset, Answer] = {}
         self.calls = 0
+        self.guards = GuardMemory()
 
     def known(self, s: frozenset) -> bool | None:
         a = self.answers.get(s)
@@ -298,7 +334,7 @@ class _Knowledge:
             return self.answers[s]
         if self.deadline is not None and time.monotonic() > self.deadline:
             raise _OutOfTime
-        a = ask(self.theory, s, self.background, self.ineq, self.options, self.models)
+        a = ask(self.theory, s, self.background, self.ineq, self.options, self.models, self.guards)
         self.calls += 1
         self.answers[s] = a
         if self.progress:

@@ -94,7 +94,8 @@ from dataclasses import dataclass, replace
 from fractions import Fraction
 from functools import lru_cache
 
-from .compile import compile_linear, hub_settings, present_events, project_independence, read_out_ok
+from .events import hub_settings, present_events, project_independence, read_out_ok
+from .linear import compile_linear
 from .errors import InputError, ModelTooLarge, Where
 from .model import Column, LinearModel, RowSource
 from .scenario import EventVar, Scenario

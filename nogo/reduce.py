@@ -1,0 +1,472 @@
+"""Reductions between the compiled model and the solver.
+
+Each step takes a :class:`~nogo.model.LinearModel` and returns a smaller
+equivalent one together with the maps that carry a solution and a
+certificate back: a point of the reduced model lifts to a point of the
+model before the step, and dual multipliers of the reduced model lift to
+multipliers of the rows before the step (a Farkas certificate of the same
+bound).  Lifted evidence is always checked again, exactly, against the
+original model (:func:`nogo.check.decide`), so a wrong step cannot pass
+unseen: the decision then falls back to the unreduced model.
+
+Steps (applied until nothing changes):
+
+* **merge** — a row ``q_j − q_k = 0`` (two entries of opposite sign and
+  equal size, right side 0) says two columns are equal.  Independence
+  clauses write exactly such rows when, at each settings tuple, the clause's
+  events determine every other present event (counterfactual bundles under
+  setting independence: one column per latent assignment at each settings
+  tuple, so the 36 copies of the latent joint of Bell 2×6 merge into one
+  distribution over the 4,096 deterministic strategies).  The connected
+  components of these rows become one column each; rows that become equal
+  are kept once, rows that become 0 = 0 are dropped.  Lifting the point
+  copies the class value to every member; lifting the duals puts the
+  merged rows' multipliers on a spanning forest of each class, peeled from
+  the leaves so that every member column keeps a reduced cost of zero and
+  the class's whole reduced cost (non-negative when the reduced duals are
+  feasible) sits on its root.
+* **zero** — a row with right side 0 whose entries all have one sign
+  forces every column in it to 0; those columns and the row are removed.
+  Lifting the duals gives the row a multiplier large enough to make the
+  removed columns' reduced costs non-negative.
+
+This is the pattern of presolve in LP codes (e.g. E. D. Andersen and K. D.
+Andersen, "Presolving in linear programming", Math. Prog. 71, 221–245
+(1995)), restricted to steps whose dual maps are exact and simple.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from fractions import Fraction
+from typing import Sequence
+
+import numpy as np
+
+from .intarith import ExactVector, as_int, lcm_all, mul
+from .model import Column, LinearModel, ModelArrays
+
+
+# -- views of the reduced model's names --------------------------------------------
+@dataclass
+class SubSources(Sequence):
+    """The sources of the rows ``keep`` of a parent source map."""
+
+    parent: Sequence
+    keep: np.ndarray
+
+    def __len__(self) -> int:
+        return len(self.keep)
+
+    def __getitem__(self, i):
+        if isinstance(i, slice):
+            return [self.parent[int(k)] for k in self.keep[i]]
+        return self.parent[int(self.keep[i])]
+
+
+@dataclass
+class MergedColumns(Sequence):
+    """A reduced column: a class of columns of the parent forced equal."""
+
+    parent: Sequence
+    scenario: object
+    first: np.ndarray  # a member per class
+    size: np.ndarray  # members per class
+
+    def __len__(self) -> int:
+        return len(self.first)
+
+    def _one(self, c: int) -> Column:
+        base = self.parent[int(self.first[c])]
+        n = int(self.size[c])
+        if n == 1:
+            return base
+        return Column(base.settings, base.events, base.values,
+                      f"{base.describe(self.scenario)} and {n - 1} column(s) forced equal to it")
+
+    def __getitem__(self, i):
+        if isinstance(i, slice):
+            return [self._one(k) for k in range(*i.indices(len(self)))]
+        return self._one(i)
+
+
+@dataclass
+class SubColumns(Sequence):
+    parent: Sequence
+    keep: np.ndarray
+
+    def __len__(self) -> int:
+        return len(self.keep)
+
+    def __getitem__(self, i):
+        if isinstance(i, slice):
+            return [self.parent[int(k)] for k in self.keep[i]]
+        return self.parent[int(self.keep[i])]
+
+
+def _derived(model: LinearModel, arrays: ModelArrays, columns, sources, note: str) -> LinearModel:
+    return LinearModel(model.scenario, model.label, model.assumptions, columns, None, None, sources, None,
+                       list(model.notes), kind=model.kind, extra={}, arrays=arrays)
+
+
+# -- helpers -----------------------------------------------------------------------
+def _transpose(model: LinearModel):
+    return model.transposed()
+
+
+def reduced_cost_numerators(model: LinearModel, cost: ExactVector, y: ExactVector) -> tuple[np.ndarray, int]:
+    """(R, G) with Aᵀy − c = R / G exactly, column by column."""
+    from .intarith import reduced_costs
+
+    return reduced_costs(model.arrays, None, cost, y)
+
+
+# -- steps -----------------------------------------------------------------------
+@dataclass
+class Step:
+    """One reduction step: the model before and after, and the maps between them."""
+
+    name: str
+    summary: str
+    before: LinearModel
+    after: LinearModel
+
+    def lift_point(self, x: ExactVector) -> ExactVector:
+        raise NotImplementedError
+
+    def lift_duals(self, y: ExactVector, cost: ExactVector) -> ExactVector:
+        raise NotImplementedError
+
+    def reduce_cost(self, cost: ExactVector) -> ExactVector:
+        raise NotImplementedError
+
+
+@dataclass
+class MergeStep(Step):
+    cls: np.ndarray = None  # class of every column before
+    kept_rows: np.ndarray = None  # rows before that stand for the rows after, in order
+    edges: tuple = ()  # spanning forest: (u, v, row, coefficient numerator at u)
+
+    def lift_point(self, x):
+        return ExactVector(x.num[self.cls], x.den)
+
+    def reduce_cost(self, cost):
+        k = len(self.after.columns)
+        if cost.num.dtype == object:
+            out = np.zeros(k, dtype=object)
+            np.add.at(out, self.cls, cost.num)
+        else:
+            out = np.zeros(k, dtype=np.int64)
+            np.add.at(out, self.cls, cost.num)
+        return ExactVector(as_int(out), cost.den)
+
+    def lift_duals(self, y, cost):
+        m_before = self.before.shape[0]
+        yb = np.zeros(m_before, dtype=object if y.num.dtype == object else np.int64)
+        yb[self.kept_rows] = y.num
+        yk = ExactVector(yb, y.den)
+        T, G = reduced_cost_numerators(self.before, cost, yk)  # over G; merge rows still 0 here
+        u, v, r, alpha = self.edges
+        if len(u) == 0:
+            return yk
+        from .intarith import SAFE, max_abs
+        small = T.dtype != object and max_abs(T) * max(1, len(T)) * int(self.before.arrays.row_den.max()) < SAFE
+        S = T.copy() if small else T.astype(object)
+        den = self.before.arrays.row_den
+        z = np.zeros(len(u), dtype=np.int64 if small else object)
+        deg = np.bincount(np.concatenate([u, v]), minlength=len(S)).astype(np.int64)
+        alive = np.ones(len(u), dtype=bool)
+        while alive.any():
+            ids = np.flatnonzero(alive)
+            au, av = u[ids], v[ids]
+            lu, lv = deg[au] == 1, deg[av] == 1
+            take_u = lu & (~lv | (au > av))
+            take_v = lv & ~take_u
+            sel = take_u | take_v
+            if not sel.any():
+                raise RuntimeError("merge rows do not form a forest")
+            e = ids[sel]
+            j = np.where(take_u[sel], au[sel], av[sel])
+            p = np.where(take_u[sel], av[sel], au[sel])
+            sign = np.where(take_u[sel], -1, 1) * alpha[e]  # z = -S_j d a (j = u) or +S_j d a (j = v)
+            z[e] = S[j] * (sign * den[r[e]] if small else (sign * den[r[e]]).astype(object))
+            np.add.at(S, p, S[j])
+            deg[j] = 0
+            np.subtract.at(deg, p, 1)
+            alive[e] = False
+        num = mul(yb, G // y.den)
+        if num.dtype != object and z.dtype != object:
+            num = num.copy()
+        else:
+            num = num.astype(object)
+        num[r] = z
+        return ExactVector(as_int(num), G)
+
+
+@dataclass
+class ZeroStep(Step):
+    kept_cols: np.ndarray = None
+    kept_rows: np.ndarray = None
+    zero_rows: np.ndarray = None
+
+    def lift_point(self, x):
+        n = len(self.before.columns)
+        out = np.zeros(n, dtype=x.num.dtype)
+        out[self.kept_cols] = x.num
+        return ExactVector(out, x.den)
+
+    def reduce_cost(self, cost):
+        return ExactVector(cost.num[self.kept_cols], cost.den)
+
+    def lift_duals(self, y, cost):
+        a = self.before.arrays
+        m_before = a.A.shape[0]
+        yb = np.zeros(m_before, dtype=object if y.num.dtype == object else np.int64)
+        yb[self.kept_rows] = y.num
+        yk = ExactVector(yb, y.den)
+        T, G = reduced_cost_numerators(self.before, cost, yk)
+        mult: dict[int, Fraction] = {}
+        A = a.A
+        kept = np.zeros(A.shape[1], dtype=bool)
+        kept[self.kept_cols] = True
+        need = np.flatnonzero(~kept)
+        At = _transpose(self.before)
+        zero_set = set(self.zero_rows.tolist())
+        for j in need.tolist():
+            t = int(T[j])
+            if t >= 0:
+                continue
+            rows = At.indices[At.indptr[j]:At.indptr[j + 1]]
+            vals = At.data[At.indptr[j]:At.indptr[j + 1]]
+            for i, aij in zip(rows.tolist(), vals.tolist()):
+                if i in zero_set:
+                    # (aij / den_i) * y_i >= -t / G
+                    want = Fraction(-t * int(a.row_den[i]), G * int(aij))
+                    cur = mult.get(i, Fraction(0))
+                    mult[i] = max(cur, want) if aij > 0 else min(cur, want)
+                    break
+        if not mult:
+            return yk
+        D = lcm_all({f.denominator for f in mult.values()} | {y.den})
+        num = mul(yb, D // y.den).astype(object)
+        for i, f in mult.items():
+            num[i] = f.numerator * (D // f.denominator)
+        return ExactVector(as_int(num), D)
+
+
+def spanning_forest(n: int, u: np.ndarray, v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(component label per node, edge ids of a spanning forest) of the graph with edges (u[e], v[e]).
+
+    Borůvka's method with edge ids as distinct weights: each round every
+    component takes its lowest incident edge to another component (such
+    choices never close a cycle), then components are relabelled by
+    hooking and pointer jumping.  All rounds are array operations.
+    """
+    comp = np.arange(n, dtype=np.int64)
+    ids = np.arange(len(u), dtype=np.int64)
+    chosen_all = []
+    big = np.iinfo(np.int64).max
+    while True:
+        cu, cv = comp[u[ids]], comp[v[ids]]
+        live = cu != cv
+        ids, cu, cv = ids[live], cu[live], cv[live]
+        if len(ids) == 0:
+            break
+        best = np.full(n, big, dtype=np.int64)
+        np.minimum.at(best, cu, ids)
+        np.minimum.at(best, cv, ids)
+        mark = np.zeros(len(u), dtype=bool)
+        mark[best[best != big]] = True
+        chosen = np.flatnonzero(mark)
+        chosen_all.append(chosen)
+        a, b = comp[u[chosen]], comp[v[chosen]]
+        lab = np.arange(n, dtype=np.int64)
+        while True:
+            la, lb = lab[a], lab[b]
+            lo = np.minimum(la, lb)
+            before = lab.copy()
+            np.minimum.at(lab, la, lo)
+            np.minimum.at(lab, lb, lo)
+            while True:
+                nxt = lab[lab]
+                if np.array_equal(nxt, lab):
+                    break
+                lab = nxt
+            if np.array_equal(lab, before):
+                break
+        comp = lab[comp]
+    forest = np.concatenate(chosen_all) if chosen_all else np.zeros(0, dtype=np.int64)
+    return comp, forest
+
+
+def _merge(model: LinearModel) -> MergeStep | None:
+    a = model.arrays
+    A = a.A
+    m, n = A.shape
+    nnz = A.row_nnz()
+    two = np.flatnonzero((nnz == 2) & (a.rhs_num == 0))
+    if len(two) == 0:
+        return None
+    p0 = A.indptr[two]
+    d0, d1 = A.data[p0], A.data[p0 + 1]
+    ok = (np.abs(d0) == 1) & (d0 == -d1)
+    rows = two[ok]
+    if len(rows) == 0:
+        return None
+    p0 = A.indptr[rows]
+    u, v = A.indices[p0], A.indices[p0 + 1]
+    comp, forest = spanning_forest(n, u, v)
+    fr = rows[forest]
+    fu, fv, falpha = u[forest], v[forest], A.data[A.indptr[fr]]
+    # classes numbered in the order of their first member
+    firsts = np.full(n, n, dtype=np.int64)
+    np.minimum.at(firsts, comp, np.arange(n, dtype=np.int64))
+    roots = np.flatnonzero(firsts < n)
+    order = np.argsort(firsts[roots], kind="stable")
+    rank = np.full(n, -1, dtype=np.int64)
+    rank[roots[order]] = np.arange(len(roots))
+    cls = rank[comp]
+    ncls = len(roots)
+    firsts = firsts[roots[order]]
+    size = np.bincount(cls, minlength=ncls)
+    # the other rows, with columns summed per class
+    is_merge = np.zeros(m, dtype=bool)
+    is_merge[rows] = True
+    other = np.flatnonzero(~is_merge)
+    B = A.take_rows(other).sum_cols(cls, ncls)
+    rn, rd, den = a.rhs_num[other], a.rhs_den[other], a.row_den[other]
+    bnnz = B.row_nnz()
+    keep = ~((bnnz == 0) & (rn == 0))  # 0 = 0
+    # duplicates: equal rows with equal right sides (hash, then confirm exactly)
+    ar = np.arange(ncls, dtype=np.uint64)
+    h1 = _float_dot(B, ((ar * np.uint64(2654435761) + np.uint64(97)) % np.uint64(2 ** 32)).astype(float) / 2 ** 32)
+    h2 = _float_dot(B, ((ar * np.uint64(40503) + np.uint64(7919)) % np.uint64(65521)).astype(float) / 65521)
+    order = np.lexsort((bnnz, den, rd, rn, h2, h1))
+    k1, k2 = h1[order], h2[order]
+    same = np.zeros(len(order), dtype=bool)
+    same[1:] = ((k1[1:] == k1[:-1]) & (k2[1:] == k2[:-1]) & (rn[order][1:] == rn[order][:-1])
+                & (rd[order][1:] == rd[order][:-1]) & (den[order][1:] == den[order][:-1])
+                & (bnnz[order][1:] == bnnz[order][:-1]))
+    start = np.maximum.accumulate(np.where(same, 0, np.arange(len(order))))
+    for pos in np.flatnonzero(same).tolist():
+        i, rep = order[pos], order[start[pos]]
+        if keep[rep] and _row_equal(B, i, rep):  # a hash collision is simply not merged
+            keep[i] = False
+    kept_local = np.flatnonzero(keep)
+    kept_rows = other[kept_local]
+    B = B.take_rows(kept_local)
+    O = a.O.T.sum_cols(cls, ncls).T
+    arrays = ModelArrays(B, den[kept_local], rn[kept_local], rd[kept_local], O, a.obs_den)
+    dup = len(other) - len(kept_local)
+    summary = (f"merge: {n - ncls} columns forced equal to others by {len(rows)} rows q_j = q_k "
+               f"({n} -> {ncls} columns); {dup} rows that became duplicates or 0 = 0 dropped")
+    after = _derived(model, arrays, MergedColumns(model.columns, model.scenario, firsts, size),
+                     SubSources(model.sources, kept_rows), summary)
+    return MergeStep("merge", summary, model, after, cls=cls, kept_rows=kept_rows,
+                     edges=(fu.astype(np.int64), fv.astype(np.int64), fr, falpha.astype(np.int64)))
+
+
+def _float_dot(B, w: np.ndarray) -> np.ndarray:
+    """B @ w in floats, summed in index order (equal rows give bit-equal results; a hash only)."""
+    out = np.zeros(B.shape[0])
+    if B.nnz:
+        prod = B.data * w[B.indices]
+        nzr = np.flatnonzero(B.row_nnz())
+        out[nzr] = np.add.reduceat(prod, B.indptr[nzr])
+    return out
+
+
+def _row_equal(B, i: int, j: int) -> bool:
+    a0, a1, b0, b1 = B.indptr[i], B.indptr[i + 1], B.indptr[j], B.indptr[j + 1]
+    return (a1 - a0 == b1 - b0 and np.array_equal(B.indices[a0:a1], B.indices[b0:b1])
+            and np.array_equal(B.data[a0:a1], B.data[b0:b1]))
+
+
+def _zero(model: LinearModel) -> ZeroStep | None:
+    a = model.arrays
+    A = a.A
+    m, n = A.shape
+    nnz = A.row_nnz()
+    rid = A.row_ids()
+    pos = np.bincount(rid[A.data > 0], minlength=m)
+    neg = np.bincount(rid[A.data < 0], minlength=m)
+    zr = np.flatnonzero((a.rhs_num == 0) & (nnz > 0) & ((pos == 0) | (neg == 0)))
+    if len(zr) == 0:
+        return None
+    dead = np.zeros(n, dtype=bool)
+    dead[A.take_rows(zr).indices] = True
+    kept_cols = np.flatnonzero(~dead)
+    is_zero = np.zeros(m, dtype=bool)
+    is_zero[zr] = True
+    rest = np.flatnonzero(~is_zero)
+    B = A.take_rows(rest).take_cols(kept_cols)
+    rn = a.rhs_num[rest]
+    keep = ~((B.row_nnz() == 0) & (rn == 0))
+    kept_rows = rest[keep]
+    B = B.take_rows(np.flatnonzero(keep))
+    arrays = ModelArrays(B, a.row_den[kept_rows], a.rhs_num[kept_rows], a.rhs_den[kept_rows],
+                         a.O.take_rows(kept_cols), a.obs_den)
+    summary = (f"zero: {int(dead.sum())} columns forced to 0 by {len(zr)} rows with entries of one sign "
+               f"and right side 0 ({n} -> {len(kept_cols)} columns)")
+    after = _derived(model, arrays, SubColumns(model.columns, kept_cols), SubSources(model.sources, kept_rows),
+                     summary)
+    return ZeroStep("zero", summary, model, after, kept_cols=kept_cols, kept_rows=kept_rows, zero_rows=zr)
+
+
+STEPS = (_merge, _zero)
+
+
+# -- the chain -------------------------------------------------------------------
+@dataclass
+class Reduced:
+    """The original model, the reduced one and the steps between them."""
+
+    original: LinearModel
+    model: LinearModel
+    steps: list[Step] = field(default_factory=list)
+
+    def lift_point(self, x: ExactVector) -> ExactVector:
+        for st in reversed(self.steps):
+            x = st.lift_point(x)
+        return x
+
+    def reduce_cost(self, cost: ExactVector) -> ExactVector:
+        costs = [cost]
+        for st in self.steps:
+            costs.append(st.reduce_cost(costs[-1]))
+        return costs[-1]
+
+    def lift_duals(self, y: ExactVector, cost: ExactVector) -> ExactVector:
+        costs = [cost]
+        for st in self.steps[:-1]:
+            costs.append(st.reduce_cost(costs[-1]))
+        for st, c in zip(reversed(self.steps), reversed(costs)):
+            y = st.lift_duals(y, c).normalised()
+        return y
+
+    def summary(self) -> list[str]:
+        return [st.summary for st in self.steps]
+
+
+def reduce_model(model: LinearModel, steps=STEPS, max_rounds: int = 8) -> Reduced:
+    """Apply the steps until none changes the model (cached on the model)."""
+    if steps is STEPS:
+        got = model.extra.get("_reduced")
+        if got is not None:
+            return got
+    chain: list[Step] = []
+    cur = model
+    for _ in range(max_rounds):
+        changed = False
+        for f in steps:
+            st = f(cur)
+            if st is not None:
+                chain.append(st)
+                cur = st.after
+                changed = True
+        if not changed:
+            break
+    red = Reduced(model, cur, chain)
+    if steps is STEPS:
+        model.extra["_reduced"] = red
+    return red
