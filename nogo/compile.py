@@ -13,12 +13,12 @@ This module only dispatches, and keeps the old names importable.
 from __future__ import annotations
 
 from .events import Projected, hub_settings, present_events, project_independence, read_out_ok
-from .linear import LinearSize, NotLinear, compile_linear, linear_size
+from .linear import NotLinear, compile_linear
 from .model import LinearModel
 from .theory import Theory
 
-__all__ = ["LinearSize", "NotLinear", "Projected", "compile_bundle", "compile_linear", "hub_settings",
-           "linear_size", "present_events", "project_independence", "read_out_ok"]
+__all__ = ["NotLinear", "Projected", "compile_bundle", "compile_linear", "hub_settings",
+           "present_events", "project_independence", "read_out_ok"]
 
 
 def compile_bundle(theory: Theory, spec: str | list[str], **options) -> LinearModel:

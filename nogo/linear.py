@@ -22,8 +22,8 @@ vectorised masks on the digit matrix (one per pattern of active read-outs),
 columns are grouped by settings tuple (contiguous ranges), and every row is
 written as integer COO triplets (entries are ±1), so no Python code runs per
 outcome tuple.  Columns and row sources are described lazily, on demand.
-:func:`linear_size` returns the size a compile would have without building
-it (for size guards).
+:func:`nogo.sizes.estimate_linear` gives the size a compile would have,
+from the declaration alone (the one estimator, used by the size guards).
 
 Clauses that need a hidden variable (``hidden``, ``factorise``,
 ``predetermined``, independence ``given`` one) are not linear in q; they
@@ -191,72 +191,6 @@ class LazySources(Sequence):
         if not 0 <= i < len(self):
             raise IndexError(i)
         return self._one(i)
-
-
-# -- sizes -----------------------------------------------------------------
-@dataclass(frozen=True)
-class LinearSize:
-    """Size of a linear compile, computed without building it."""
-
-    columns: int  # exact
-    rows: int  # upper bound (rows whose entries are all absent are left out)
-    nonzeros: int  # upper bound
-    tuples: int  # outcome tuples examined per settings tuple (the digit matrix)
-
-    def bytes_estimate(self) -> int:
-        """Peak bytes of the compile, roughly: COO triplets plus CSR plus the digit matrix."""
-        return 40 * self.nonzeros + 16 * self.columns + 2 * self.tuples * 8
-
-
-def linear_size(theory: Theory, spec: str | list[str]) -> LinearSize:
-    """Rows, columns and non-zeros ``compile_linear(theory, spec)`` would produce (no arrays built).
-
-    Columns are counted exactly: per settings tuple, each party with an
-    active read-out is fixed by the first of its ties, and every further
-    tie at the same lab pins one more event to a function of the others
-    (relabellings are maps, so each tie keeps one value of its observer per
-    value of the party).
-    """
-    label, assumptions = theory.resolve(spec)
-    _check_linear(theory, assumptions)
-    sc = theory.scenario
-    events = present_events(sc, assumptions)
-    names = [e.name for e in events]
-    dims = [len(e.outcomes) for e in events]
-    total = 1
-    for d in dims:
-        total *= d
-    ties = _ties(sc, events)
-    settings = sc.setting_tuples()
-    per_s = {}
-    for s in settings:
-        n = total
-        for (lab, k, relabel, pi, at) in ties:
-            if s[pi] == at:
-                n //= dims[k] if _injective(relabel) and dims[k] == dims[lab] else 1
-        per_s[s] = n
-    cols = sum(per_s.values())
-    rows = len(settings)
-    nnz = cols
-    notes: list[str] = []
-    for a in assumptions:
-        for c in a.clauses:
-            if not isinstance(c, Independent):
-                continue
-            pr = project_independence(sc, c.events, c.of, names, a.name, notes)
-            if pr is None:
-                continue
-            K = 1
-            for i in pr.idx:
-                K *= dims[i]
-            nonhub = [s for s in settings if pr.base[s] != s]
-            rows += len(nonhub) * K
-            nnz += sum(per_s[s] + per_s[pr.base[s]] for s in nonhub)
-    return LinearSize(cols, rows, nnz, total)
-
-
-def _injective(relabel) -> bool:
-    return len(set(relabel)) == len(relabel)
 
 
 # -- the compiler ---------------------------------------------------------------

@@ -18,7 +18,8 @@ from fractions import Fraction
 
 import pytest
 
-from nogo.compile import compile_linear, linear_size
+from nogo.compile import compile_linear
+from nogo.sizes import estimate_linear
 from nogo.theory import load_theory_text
 
 
@@ -143,7 +144,7 @@ def test_array_compiler_matches_the_slow_encoding(seed):
     coords = th.scenario.coordinates()
     for j, obs in enumerate(model.observe):
         assert {coords[i]: w for i, w in obs.items()} == {observe[cols[j]]: 1}
-    size = linear_size(th, "all")
+    size = estimate_linear(th.scenario, th.resolve("all")[1])
     assert size.columns == len(cols)
     assert size.rows >= len(rows)
     assert size.nonzeros >= sum(len(r) for r, _ in rows)
@@ -158,7 +159,7 @@ def test_size_estimate_without_building():
     text = (Path(__file__).resolve().parent.parent / "theories" / "bell-2x3.yaml").read_text()
     for m in (2, 3, 6, 8):
         th = load_theory_text(text.replace("settings: [1, 2, 3]", f"settings: [{', '.join(map(str, range(1, m + 1)))}]"))
-        size = linear_size(th, "Bell-local")
+        size = estimate_linear(th.scenario, th.resolve("Bell-local")[1])
         assert size.columns == m * m * 4 ** m
         if m <= 3:
             model = compile_linear(th, "Bell-local")
