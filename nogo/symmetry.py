@@ -23,8 +23,15 @@ Move = Callable[[Coord], Coord]
 
 @dataclass(frozen=True)
 class Generator:
+    """One relabelling move, with what it does in words of the scenario (used to lift it to a model)."""
+
     label: str
     move: Move
+    kind: str = ""  # "outcomes" | "settings" | "parties"
+    party: int = -1  # the party it acts on (the first of two for "parties")
+    other: int = -1  # the second party of a swap
+    setting: str = ""  # for "outcomes": the setting at which the outcomes are relabelled
+    mapping: tuple[tuple[str, str], ...] = ()  # outcome or setting map as pairs
 
 
 def generators(scenario: Scenario, pinned_settings: Iterable[tuple[str, str]] = (),
@@ -43,7 +50,8 @@ def generators(scenario: Scenario, pinned_settings: Iterable[tuple[str, str]] = 
                     if s[i] != x:
                         return c
                     return s, a[:i] + (mapping[a[i]],) + a[i + 1:]
-                gens.append(Generator(f"relabel outcomes of {p.name} at setting {x}", mv))
+                gens.append(Generator(f"relabel outcomes of {p.name} at setting {x}", mv, "outcomes", i, -1, x,
+                                      tuple(mapping.items())))
         free = [x for x in p.settings if (p.name, x) not in pinned]
         for perm in _transpositions_and_cycle(len(free)):
             mapping = {free[k]: free[perm[k]] for k in range(len(perm))}
@@ -51,7 +59,8 @@ def generators(scenario: Scenario, pinned_settings: Iterable[tuple[str, str]] = 
             def mv(c, i=i, mapping=mapping):
                 s, a = c
                 return s[:i] + (mapping.get(s[i], s[i]),) + s[i + 1:], a
-            gens.append(Generator(f"permute settings of {p.name}", mv))
+            gens.append(Generator(f"permute settings of {p.name}", mv, "settings", i, -1, "",
+                                  tuple(mapping.items())))
     if swap_parties:
         for i, j in itertools.combinations(range(len(names)), 2):
             pi, pj = scenario.parties[i], scenario.parties[j]
@@ -66,7 +75,7 @@ def generators(scenario: Scenario, pinned_settings: Iterable[tuple[str, str]] = 
                 s2[i], s2[j] = s[j], s[i]
                 a2[i], a2[j] = a[j], a[i]
                 return tuple(s2), tuple(a2)
-            gens.append(Generator(f"swap parties {pi.name} and {pj.name}", mv))
+            gens.append(Generator(f"swap parties {pi.name} and {pj.name}", mv, "parties", i, j))
     return gens
 
 
@@ -152,3 +161,142 @@ def permutation(scenario: Scenario, move: Move) -> list[int]:
     if sorted(perm) != list(range(len(coords))):
         raise ValueError("a relabelling move is not a permutation of the coordinates")
     return perm
+
+
+# -- lifting a move to the compiled model --------------------------------------
+def _event_maps(scenario: Scenario, gen: Generator, inner_too: bool):
+    """(rename events, map a value of an event given the column's settings) for one generator."""
+    names = scenario.party_names
+    if gen.kind == "outcomes":
+        pname, x, m = names[gen.party], gen.setting, dict(gen.mapping)
+        inner = {o.name for o in scenario.inner if o.lab == pname and o.read_out_at == x} if inner_too else set()
+
+        def value(ev, v, settings):
+            if ev == pname:
+                return m.get(v, v) if settings is not None and settings[gen.party] == x else v
+            if ev == f"{pname}@{x}" or ev in inner:
+                return m.get(v, v)
+            return v
+        return (lambda ev: ev), value, (lambda s: s)
+    if gen.kind == "settings":
+        pname, m = names[gen.party], dict(gen.mapping)
+
+        def rename(ev):
+            if ev.startswith(pname + "@") and ev[len(pname) + 1:] in m:
+                return f"{pname}@{m[ev[len(pname) + 1:]]}"
+            return ev
+
+        def settings_of(s):
+            return None if s is None else s[:gen.party] + (m.get(s[gen.party], s[gen.party]),) + s[gen.party + 1:]
+        return rename, (lambda ev, v, s: v), settings_of
+    if gen.kind == "parties":
+        i, j = gen.party, gen.other
+        pi, pj = names[i], names[j]
+        ins_i = [o.name for o in scenario.inner if o.lab == pi]
+        ins_j = [o.name for o in scenario.inner if o.lab == pj]
+        if len(ins_i) != len(ins_j):
+            return None
+        swap = {pi: pj, pj: pi, **dict(zip(ins_i, ins_j)), **dict(zip(ins_j, ins_i))}
+
+        def rename(ev):
+            base, at, x = ev.partition("@")
+            return swap.get(base, base) + at + x
+
+        def settings_of(s):
+            if s is None:
+                return None
+            s2 = list(s)
+            s2[i], s2[j] = s[j], s[i]
+            return tuple(s2)
+        return rename, (lambda ev, v, s: v), settings_of
+    return None
+
+
+def lift_to_model(model, gen: Generator) -> list[int] | None:
+    """A permutation of the model's columns that realises *gen* and leaves the model unchanged, or None.
+
+    The move is lifted by its meaning: outcomes of a party at a setting are
+    relabelled in the party's event at that setting, in its counterfactual
+    outcome at that setting and (first try) in the inner observers read out
+    there; settings are permuted in the settings and the counterfactual
+    events; parties are exchanged with their inner observers.  The lift is
+    then checked exactly: it must be a bijection of the columns, carry the
+    observation map along the coordinate permutation, and map the set of
+    rows (each scaled to a leading 1) with their right-hand sides onto
+    itself.  When all three hold, the move maps the model polytope onto
+    itself, hence the set of behaviours onto itself: every image of a
+    certified point is a certified point and every image of a facet with a
+    Farkas certificate has one (the permuted multipliers).
+    """
+    if getattr(model, "kind", "linear") != "linear" or any(c.label for c in model.columns):
+        return None
+    sc = model.scenario
+    perm_obs = permutation(sc, gen.move)
+    index = {(c.settings, tuple(sorted(zip(c.events, c.values)))): j for j, c in enumerate(model.columns)}
+    for inner_too in (True, False):
+        maps = _event_maps(sc, gen, inner_too)
+        if maps is None:
+            return None
+        rename, value, settings_of = maps
+        sigma = []
+        for c in model.columns:
+            s2 = settings_of(c.settings)
+            key = (s2, tuple(sorted((rename(e), value(e, v, c.settings)) for e, v in zip(c.events, c.values))))
+            j = index.get(key)
+            if j is None:
+                break
+            sigma.append(j)
+        if len(sigma) != len(model.columns) or len(set(sigma)) != len(sigma):
+            continue
+        if _model_invariant(model, sigma, perm_obs):
+            return sigma
+        if not sc.inner:
+            break
+    return None
+
+
+def _normal_row(row: dict, rhs) -> tuple:
+    items = sorted((j, Fraction(v)) for j, v in row.items() if v)
+    if not items:
+        return ((), Fraction(rhs))
+    lead = items[0][1]
+    return (tuple((j, v / lead) for j, v in items), Fraction(rhs) / lead)
+
+
+def _model_invariant(model, sigma: list[int], perm_obs: list[int]) -> bool:
+    for j, obs in enumerate(model.observe):
+        moved = {perm_obs[i]: w for i, w in obs.items() if w}
+        target = {i: w for i, w in model.observe[sigma[j]].items() if w}
+        if moved != target:
+            return False
+    rows = {_normal_row(r, b) for r, b in zip(model.rows, model.rhs)}
+    moved = {_normal_row({sigma[j]: v for j, v in r.items()}, b) for r, b in zip(model.rows, model.rhs)}
+    if moved == rows:
+        return True
+    return _same_row_space(model, sigma)
+
+
+def _same_row_space(model, sigma: list[int]) -> bool:
+    """Exact: the permuted equations have the same solution set as the original ones (equal ranks)."""
+    import flint
+
+    n = len(model.columns)
+
+    def ints(rows_rhs):
+        out = []
+        for r, b in rows_rhs:
+            vals = [Fraction(v) for v in r.values()] + [Fraction(b)]
+            L = 1
+            for v in vals:
+                L = L * v.denominator // __import__("math").gcd(L, v.denominator)
+            line = [0] * (n + 1)
+            for j, v in r.items():
+                line[j] = int(Fraction(v) * L)
+            line[n] = int(Fraction(b) * L)
+            out.append(line)
+        return out
+    orig = ints(zip(model.rows, model.rhs))
+    perm = ints(({sigma[j]: v for j, v in r.items()}, b) for r, b in zip(model.rows, model.rhs))
+    A = flint.fmpz_mat(orig)
+    AB = flint.fmpz_mat(orig + perm)
+    return A.rank() == AB.rank()

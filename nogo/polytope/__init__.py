@@ -14,6 +14,7 @@ from .hull import _coords_matrix, _exact_hull, _hull_in, hull_estimate, int_matm
 from .ints import Point, PolytopeError, Progress, _lcm, _zmat, primitive
 from .oracle import Answer, fingerprint, oracle_batch
 from .result import HullFacet, Polytope
+from .symmetric import derive_symmetric
 
 __all__ = ["Answer", "Frame", "Functional", "HullFacet", "Point", "Polytope", "PolytopeError", "Progress",
            "affine_basis", "candidate_functionals", "choose_frame", "derive_polytope", "fingerprint",

@@ -108,108 +108,126 @@ def derive_polytope(model: LinearModel, frame: str = "auto", *, moves: list | No
 
     References: see the module docstring.
     """
-    t_start = time.perf_counter()
-    deadline = None if time_limit is None else t_start + time_limit
-    sc = model.scenario
-    d = len(sc.coordinates())
-    rng = np.random.default_rng(seed)
-    fp = fingerprint(model)
-    stats: dict = {"oracle_calls": 0, "hull_rounds": 0, "times": {}}
-    notes: list[str] = []
-    report = progress or (lambda stage, done, total: None)
+    run = _Run(model, seed, time_limit, workers, progress, chunk)
+    run.discover(frame)
+    perms = [_perm_of(model.scenario, mv) for mv in (moves or [])]
+    run.perms, run.lifted = perms, False
+    run.close_under(perms, lifted=False)
+    run.stats["times"]["vertices"] = time.perf_counter() - run.t_vertices
+    return run.plain_hull()
 
-    def out_of_time() -> bool:
-        return deadline is not None and time.perf_counter() > deadline
 
-    def ask(kind: str, items: list) -> list[Answer]:
+class _Run:
+    """The state of one derivation: the model, the certified points found, the clock, the counters."""
+
+    def __init__(self, model: LinearModel, seed: int, time_limit, workers, progress, chunk: int):
+        self.t_start = time.perf_counter()
+        self.deadline = None if time_limit is None else self.t_start + time_limit
+        self.model = model
+        self.sc = model.scenario
+        self.d = len(self.sc.coordinates())
+        self.rng = np.random.default_rng(seed)
+        self.fp = fingerprint(model)
+        self.stats: dict = {"oracle_calls": 0, "hull_rounds": 0, "times": {}}
+        self.notes: list[str] = []
+        self.report = progress or (lambda stage, done, total: None)
+        self.workers = workers
+        self.chunk = chunk
+        self.points: dict[Point, None] = {}
+        self.perms: list[list[int]] = []
+        self.lifted = False
+
+    def out_of_time(self) -> bool:
+        return self.deadline is not None and time.perf_counter() > self.deadline
+
+    def ask(self, kind: str, items: list) -> list[Answer]:
         if not items:
             return []
-        stats["oracle_calls"] += len(items)
-        chunks = [(model, kind, items[i:i + chunk]) for i in range(0, len(items), chunk)]
-        res = fan_out(oracle_batch, chunks, workers)
+        self.stats["oracle_calls"] += len(items)
+        chunk = self.chunk
+        chunks = [(self.model, kind, items[i:i + chunk]) for i in range(0, len(items), chunk)]
+        res = fan_out(oracle_batch, chunks, self.workers)
         return [a for r in res for a in r]
 
-    points: dict[Point, None] = {}
-
-    def add(pts) -> int:
+    def add(self, pts) -> int:
         new = 0
         for p in pts:
-            if p is not None and p not in points:
-                points[p] = None
+            if p is not None and p not in self.points:
+                self.points[p] = None
                 new += 1
         return new
 
-    # 1. first points, from random directions in full coordinates
-    t0 = time.perf_counter()
-    first = [tuple(Fraction(int(v)) for v in rng.integers(-1000, 1001, size=d)) for _ in range(d + 8)]
-    add(a.point for a in ask("max", [(c, None, None) for c in first]))
-    report("points", len(points), None)
+    def discover(self, frame: str) -> None:
+        """Stages 1-4: first points, the proven affine hull, the coordinates, vertices from random directions."""
+        sc, d, rng = self.sc, self.d, self.rng
+        t0 = time.perf_counter()
+        first = [tuple(Fraction(int(v)) for v in rng.integers(-1000, 1001, size=d)) for _ in range(d + 8)]
+        self.add(a.point for a in self.ask("max", [(c, None, None) for c in first]))
+        self.report("points", len(self.points), None)
+        while True:
+            _, ann = affine_basis(list(self.points))
+            v0 = next(iter(self.points))
+            qs = []
+            for h in ann:
+                val = sum((Fraction(x) * y for x, y in zip(h, v0)), Fraction(0))
+                qs.append((tuple(Fraction(x) for x in h), val, None))
+                qs.append((tuple(Fraction(-x) for x in h), -val, None))
+            answers = self.ask("max", qs)
+            if not self.add(a.point for a in answers if a.valid is False):
+                self.equations = [(tuple(h), sum((Fraction(x) * y for x, y in zip(h, v0)), Fraction(0)))
+                                  for h in ann]
+                break
+        self.stats["times"]["affine hull"] = time.perf_counter() - t0
+        kind = frame
+        ns = all(sum((Fraction(x) * Fraction(y) for x, y in zip(f, p) if x), Fraction(0)) ==
+                 sum((Fraction(x) * Fraction(y) for x, y in zip(f, v0) if x), Fraction(0))
+                 for f in no_signalling_functionals(sc) for p in self.points)
+        if frame == "auto":
+            kind = "collins-gisin" if ns else "probabilities"
+        elif frame in ("collins-gisin", "correlators") and not ns:
+            from ..errors import InputError
 
-    # 2. the affine hull, proven by certified bounds in both directions on every equation
-    while True:
-        _, ann = affine_basis(list(points))
-        v0 = next(iter(points))
-        qs = []
-        for h in ann:
-            val = sum((Fraction(x) * y for x, y in zip(h, v0)), Fraction(0))
-            qs.append((tuple(Fraction(x) for x in h), val, None))
-            qs.append((tuple(Fraction(-x) for x in h), -val, None))
-        answers = ask("max", qs)
-        new = add(a.point for a in answers if a.valid is False)
-        if not new:
-            equations = [(tuple(h), sum((Fraction(x) * y for x, y in zip(h, v0)), Fraction(0))) for h in ann]
-            break
-    stats["times"]["affine hull"] = time.perf_counter() - t0
+            raise InputError(f"bundle '{self.model.label}' does not imply no-signalling, so {frame} coordinates "
+                             "are not a faithful description of its behaviours", hint="use the probabilities frame")
+        if frame == "correlators" and any(len(p.outcomes) != 2 for p in sc.parties):
+            from ..errors import InputError
 
-    # 3. coordinates
-    kind = frame
-    ns = all(sum((Fraction(x) * Fraction(y) for x, y in zip(f, p) if x), Fraction(0)) ==
-             sum((Fraction(x) * Fraction(y) for x, y in zip(f, v0) if x), Fraction(0))
-             for f in no_signalling_functionals(sc) for p in points)
-    if frame == "auto":
-        kind = "collins-gisin" if ns else "probabilities"
-    elif frame in ("collins-gisin", "correlators") and not ns:
-        from ..errors import InputError
+            raise InputError("correlator coordinates need two outcomes per party")
+        self.kind = kind
+        self.fr = fr = choose_frame(sc, list(self.points), kind)
+        k = fr.dim
+        # cddlib's insertion order follows the input coordinates; measured on the local-friendliness
+        # polytope (96 points, dimension 15) plain probability coordinates make its hull about twice as
+        # fast as Collins–Gisin ones, so the plain hull is taken there and its facets carried over exactly
+        self.hull_frame = fr if kind == "probabilities" else choose_frame(sc, list(self.points), "probabilities")
+        self.notes.append(f"no-signalling holds on this set (exact check on its affine hull): {'yes' if ns else 'no'}")
+        self.t_vertices = t0 = time.perf_counter()
+        self.G = G = np.array([[float(v) for v in f.vector] for f in fr.functionals]).reshape(k, d)
+        patience, stale, tries = max(40, 2 * k), 0, 0
+        while stale < patience and tries < 50 * (k + 10) and not self.out_of_time():
+            batch = []
+            for _ in range(16):
+                c = rng.normal(size=k) @ G
+                batch.append((tuple(Fraction(float(v)).limit_denominator(10**6) for v in c), None, None))
+            got = self.ask("max", batch)
+            tries += len(batch)
+            new = self.add(a.point for a in got)
+            stale = 0 if new else stale + len(batch)
+            self.report("vertices", len(self.points), None)
+        self.stats["random_directions"] = tries
 
-        raise InputError(f"bundle '{model.label}' does not imply no-signalling, so {frame} coordinates are not a "
-                         "faithful description of its behaviours", hint="use the probabilities frame")
-    if frame == "correlators" and any(len(p.outcomes) != 2 for p in sc.parties):
-        from ..errors import InputError
+    def close_under(self, perms: list[list[int]], lifted: bool) -> None:
+        """Add every image of the points under the moves: certified by the oracle, or free when *lifted*.
 
-        raise InputError("correlator coordinates need two outcomes per party")
-    fr = choose_frame(sc, list(points), kind)
-    k = fr.dim
-    # cddlib's insertion order follows the input coordinates; measured on the local-friendliness
-    # polytope (96 points, dimension 15) plain probability coordinates make its hull about twice as
-    # fast as Collins–Gisin ones, so the hull is taken there and its facets are carried over exactly
-    hull_frame = fr if kind == "probabilities" else choose_frame(sc, list(points), "probabilities")
-    notes.append(f"no-signalling holds on this set (exact check on its affine hull): {'yes' if ns else 'no'}")
-
-    # 4. more vertices: random directions in frame coordinates until they stop finding new ones
-    t0 = time.perf_counter()
-    G = np.array([[float(v) for v in f.vector] for f in fr.functionals]).reshape(k, d)
-    patience, stale, tries = max(40, 2 * k), 0, 0
-    while stale < patience and tries < 50 * (k + 10) and not out_of_time():
-        batch = []
-        for _ in range(16):
-            w = rng.normal(size=k)
-            c = w @ G
-            batch.append((tuple(Fraction(float(v)).limit_denominator(10**6) for v in c), None, None))
-        got = ask("max", batch)
-        tries += len(batch)
-        new = add(a.point for a in got)
-        stale = 0 if new else stale + len(batch)
-        report("vertices", len(points), None)
-    stats["random_directions"] = tries
-
-    perms = [_perm_of(sc, mv) for mv in (moves or [])]
-
-    def close_under_moves() -> None:
+        A lifted move is a verified symmetry of the model itself (:func:`nogo.symmetry.lift_to_model`),
+        so the image of a certified point is a certified point (its preimage is the permuted one).
+        """
         if not perms:
             return
-        frontier = list(points)
+        d = self.d
+        frontier = list(self.points)
         tried: set[Point] = set()
-        while frontier and not out_of_time():
+        while frontier and (lifted or not self.out_of_time()):
             cands = []
             for p in frontier:
                 for perm in perms:
@@ -217,104 +235,114 @@ def derive_polytope(model: LinearModel, frame: str = "auto", *, moves: list | No
                     for i, j in enumerate(perm):
                         q[j] = p[i]
                     q = tuple(q)
-                    if q not in points and q not in tried:
+                    if q not in self.points and q not in tried:
                         tried.add(q)
                         cands.append(q)
-            got = ask("member", cands)
-            frontier = [a.point for a in got if a.point is not None and a.point not in points]
-            add(frontier)
-            report("vertices", len(points), None)
+            if lifted:
+                frontier = cands
+            else:
+                got = self.ask("member", cands)
+                frontier = [a.point for a in got if a.point is not None and a.point not in self.points]
+            self.add(frontier)
+            self.report("vertices", len(self.points), None)
 
-    close_under_moves()
-    stats["times"]["vertices"] = time.perf_counter() - t0
+    def plain_hull(self) -> Polytope:
+        """Stage 5-6 of the plain route: hull, the oracle on every facet until all are valid, exact checks."""
+        sc, d, rng, fr = self.sc, self.d, self.rng, self.fr
+        k, G, hull_frame, stats, notes = fr.dim, self.G, self.hull_frame, self.stats, self.notes
+        points, ask, add, report, chunk, workers = self.points, self.ask, self.add, self.report, self.chunk, self.workers
+        out_of_time = self.out_of_time
 
-    # 5. hull, then the oracle on every facet, until every facet is valid
-    hull: list[tuple[tuple[int, ...], int]] = []
-    verified: dict[tuple[tuple[int, ...], int], Answer] = {}
-    status = "complete"
-    t_hull = t_check = 0.0
-    while True:
-        if out_of_time():
-            status = "partial"
-            break
-        t0 = time.perf_counter()
-        report("hull", len(points), k)
-        hull = _hull_in(fr, hull_frame, list(points))
-        t_hull += time.perf_counter() - t0
-        stats["hull_rounds"] += 1
-        t0 = time.perf_counter()
-        todo = [f for f in hull if f not in verified]
-        new_points: list[Point] = []
-        for start in range(0, len(todo), chunk * max(1, workers or 1)):
+        def close_under_moves() -> None:
+            self.close_under(self.perms, self.lifted)
+        t_start, equations, fp, model = self.t_start, self.equations, self.fp, self.model
+        # 5. hull, then the oracle on every facet, until every facet is valid
+        hull: list[tuple[tuple[int, ...], int]] = []
+        verified: dict[tuple[tuple[int, ...], int], Answer] = {}
+        status = "complete"
+        t_hull = t_check = 0.0
+        while True:
             if out_of_time():
                 status = "partial"
                 break
-            part = todo[start:start + chunk * max(1, workers or 1)]
-            qs = []
-            for a, b in part:
-                pert = (rng.normal(size=k) * 1e-4) @ G
-                qs.append((tuple(fr.full(a)), Fraction(b), pert))
-            for f, ans in zip(part, ask("max", qs)):
-                if ans.valid:
-                    verified[f] = ans
-                else:
-                    new_points.append(ans.point)
-            report("facets checked", len(verified), len(hull))
-        t_check += time.perf_counter() - t0
-        if status == "partial":
-            break
-        if not add(new_points):
-            if new_points:
-                raise PolytopeError("the oracle returned a point beyond a facet that the hull already holds")
-            break
-        close_under_moves()
-    stats["times"]["hull"] = t_hull
-    stats["times"]["facet checks"] = t_check
+            t0 = time.perf_counter()
+            report("hull", len(points), k)
+            hull = _hull_in(fr, hull_frame, list(points))
+            t_hull += time.perf_counter() - t0
+            stats["hull_rounds"] += 1
+            t0 = time.perf_counter()
+            todo = [f for f in hull if f not in verified]
+            new_points: list[Point] = []
+            for start in range(0, len(todo), chunk * max(1, workers or 1)):
+                if out_of_time():
+                    status = "partial"
+                    break
+                part = todo[start:start + chunk * max(1, workers or 1)]
+                qs = []
+                for a, b in part:
+                    pert = (rng.normal(size=k) * 1e-4) @ G
+                    qs.append((tuple(fr.full(a)), Fraction(b), pert))
+                for f, ans in zip(part, ask("max", qs)):
+                    if ans.valid:
+                        verified[f] = ans
+                    else:
+                        new_points.append(ans.point)
+                report("facets checked", len(verified), len(hull))
+            t_check += time.perf_counter() - t0
+            if status == "partial":
+                break
+            if not add(new_points):
+                if new_points:
+                    raise PolytopeError("the oracle returned a point beyond a facet that the hull already holds")
+                break
+            close_under_moves()
+        stats["times"]["hull"] = t_hull
+        stats["times"]["facet checks"] = t_check
 
-    # 6. exact facet check: valid on every point, tight on dim-1 affinely independent vertices
-    t0 = time.perf_counter()
-    plist = list(points)
-    Y, den = _coords_matrix(fr, plist)
-    facets: list[HullFacet] = []
-    tight_sets: list[list[int]] = []
-    if hull:
-        vals = int_matmul([a for a, _ in hull], Y, k)
-        for i, (a, b) in enumerate(hull):
-            row = vals[i]
-            lim = b * den
-            if any(v > lim for v in row):
-                raise PolytopeError("a hull facet is violated by a certified point")
-            tight = [j for j, v in enumerate(row) if v == lim]
-            tight_sets.append(tight)
-            ans = verified.get((a, b))
-            facets.append(HullFacet(a, b, True if ans else None, len(tight), ans.bound if ans else None,
-                                    ans.method if ans else ""))
-        for f, tight in zip(facets, tight_sets):
-            M = _zmat([[1] + [int(v) for v in Y[j]] for j in tight], k + 1)
-            if M.rank() != k:
-                raise PolytopeError("a hull inequality is not tight on a facet's worth of vertices")
-        if status == "complete":
-            for f in facets:
-                if f.bound is not None and f.bound != f.b:
-                    raise PolytopeError("a certified bound is below a facet's value at its vertices")
-    # vertices: points where the tight facets have full rank
-    vertices = plist
-    if hull and status == "complete":
-        on: list[list[int]] = [[] for _ in plist]
-        for i, tight in enumerate(tight_sets):
-            for j in tight:
-                on[j].append(i)
-        vertices = []
-        for j, p in enumerate(plist):
-            M = _zmat([list(hull[i][0]) for i in on[j]], k)
-            if len(on[j]) >= k and M.rank() == k:
-                vertices.append(p)
-        if len(vertices) < len(plist):
-            notes.append(f"{len(plist) - len(vertices)} certified points found on the way are not vertices")
-    stats["times"]["exact facet check"] = time.perf_counter() - t0
-    stats["times"]["total"] = time.perf_counter() - t_start
-    stats["points"] = len(plist)
-    if status == "partial":
-        notes.append("time limit reached: the facet list is the hull of the vertices found so far; facets "
-                     "marked unverified were not yet checked against the bundle")
-    return Polytope(sc, model.label, model.assumptions, fr, vertices, equations, facets, status, stats, notes, fp)
+        # 6. exact facet check: valid on every point, tight on dim-1 affinely independent vertices
+        t0 = time.perf_counter()
+        plist = list(points)
+        Y, den = _coords_matrix(fr, plist)
+        facets: list[HullFacet] = []
+        tight_sets: list[list[int]] = []
+        if hull:
+            vals = int_matmul([a for a, _ in hull], Y, k)
+            for i, (a, b) in enumerate(hull):
+                row = vals[i]
+                lim = b * den
+                if any(v > lim for v in row):
+                    raise PolytopeError("a hull facet is violated by a certified point")
+                tight = [j for j, v in enumerate(row) if v == lim]
+                tight_sets.append(tight)
+                ans = verified.get((a, b))
+                facets.append(HullFacet(a, b, True if ans else None, len(tight), ans.bound if ans else None,
+                                        ans.method if ans else "", ans.certificate if ans else None))
+            for f, tight in zip(facets, tight_sets):
+                M = _zmat([[1] + [int(v) for v in Y[j]] for j in tight], k + 1)
+                if M.rank() != k:
+                    raise PolytopeError("a hull inequality is not tight on a facet's worth of vertices")
+            if status == "complete":
+                for f in facets:
+                    if f.bound is not None and f.bound != f.b:
+                        raise PolytopeError("a certified bound is below a facet's value at its vertices")
+        # vertices: points where the tight facets have full rank
+        vertices = plist
+        if hull and status == "complete":
+            on: list[list[int]] = [[] for _ in plist]
+            for i, tight in enumerate(tight_sets):
+                for j in tight:
+                    on[j].append(i)
+            vertices = []
+            for j, p in enumerate(plist):
+                M = _zmat([list(hull[i][0]) for i in on[j]], k)
+                if len(on[j]) >= k and M.rank() == k:
+                    vertices.append(p)
+            if len(vertices) < len(plist):
+                notes.append(f"{len(plist) - len(vertices)} certified points found on the way are not vertices")
+        stats["times"]["exact facet check"] = time.perf_counter() - t0
+        stats["times"]["total"] = time.perf_counter() - t_start
+        stats["points"] = len(plist)
+        if status == "partial":
+            notes.append("time limit reached: the facet list is the hull of the vertices found so far; facets "
+                         "marked unverified were not yet checked against the bundle")
+        return Polytope(sc, model.label, model.assumptions, fr, vertices, equations, facets, status, stats, notes, fp)

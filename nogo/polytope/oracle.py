@@ -111,6 +111,7 @@ class _Oracle:
         self.hs = highspy
         self.h = self._build(D.A, D.b.astype(float))
         self.member = None  # built on first use: rows plus O q = p
+        self.last_certificate = None
         self.calls = 0
 
     def _build(self, A: sp.csr_matrix, rhs: np.ndarray):
@@ -171,6 +172,7 @@ class _Oracle:
 
 
 _ORACLES: dict[str, _Oracle] = {}
+_DATA: dict[str, _Data] = {}
 
 
 def _oracle(model: LinearModel) -> _Oracle:
@@ -240,8 +242,37 @@ def _certify_bound(o: _Oracle, c: Sequence[Fraction], beta: Fraction, duals: np.
             continue
         bound = Fraction(sum(int(y) * int(bi) for y, bi in zip(Y, D.b)), yden)
         if bound <= beta:
+            o.last_certificate = ([int(v) for v in Y], int(yden))
             return bound
     return None
+
+
+def check_certificate(model: LinearModel, c: Sequence[Fraction], beta: Fraction, cert) -> bool:
+    """Exact check of stored multipliers y = Y/den for c·p <= beta: rowsᵀy >= Oᵀc and rhs·y <= beta.
+
+    Integer arithmetic throughout (rows scaled to integers, O over one denominator); no solver.
+    """
+    Y, yden = cert
+    D = _DATA.get(fingerprint(model))
+    if D is None:
+        if len(_DATA) > 8:
+            _DATA.clear()
+        D = _DATA[fingerprint(model)] = _data_of(model)
+    if len(Y) != D.m or int(yden) <= 0:
+        return False
+    Yv = np.array([int(v) for v in Y], dtype=object)
+    if max((abs(int(v)) for v in Yv), default=0) < 2**40:
+        Yv = Yv.astype(np.int64)
+    cden = _lcm(Fraction(v).denominator for v in c)
+    ci = np.array([int(Fraction(v) * cden) for v in c], dtype=object)
+    if max((abs(int(v)) for v in ci), default=0) < 2**40:
+        ci = ci.astype(np.int64)
+    mc = _int_matvec(D.OT, D.omax, ci)
+    mden = cden * D.oden
+    lhs = _int_matvec(D.AT, D.amax, Yv)
+    if any(int(l) * mden < int(r) * int(yden) for l, r in zip(lhs, mc)):
+        return False
+    return Fraction(sum(int(y) * int(bi) for y, bi in zip(Yv, D.b)), int(yden)) <= Fraction(beta)
 
 
 @dataclass
@@ -252,6 +283,7 @@ class Answer:
     point: Point | None  # a certified point of P (the optimum, or the preimage found)
     bound: Fraction | None  # certified upper bound when valid
     method: str = ""
+    certificate: tuple | None = None  # (integer multipliers Y, denominator) of the model's rows, when kept
 
 
 def _ask_max(model: LinearModel, c: Sequence[Fraction], beta: Fraction | None, perturb: np.ndarray | None) -> Answer:
@@ -271,7 +303,7 @@ def _ask_max(model: LinearModel, c: Sequence[Fraction], beta: Fraction | None, p
     if beta is not None and value <= float(beta) + 1e-7:
         bnd = _certify_bound(o, c, Fraction(beta), duals)
         if bnd is not None:
-            return Answer(True, None, bnd, "rounded duals, checked exactly")
+            return Answer(True, None, bnd, "rounded duals, checked exactly", o.last_certificate)
         cost = [sum((w * Fraction(c[i]) for i, w in obs.items()), Fraction(0)) for obs in model.observe]
         opt = _exact_fallback(model, cost)
         if opt.value <= beta:

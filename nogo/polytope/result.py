@@ -19,6 +19,7 @@ class HullFacet:
     tight: int = 0  # number of vertices on it
     bound: Fraction | None = None  # the certified maximum (== b for a facet)
     method: str = ""
+    certificate: tuple | None = None  # stored Farkas multipliers (integers, denominator), when kept
 
 
 @dataclass
@@ -36,6 +37,10 @@ class Polytope:
     stats: dict = field(default_factory=dict)
     notes: list[str] = field(default_factory=list)
     fingerprint: str = ""
+    # the symmetric route: (index of the representative, member indices) per class, and the group
+    classes: list[tuple[int, list[int]]] | None = None
+    group_order: int | None = None
+    group_generators: list[str] = field(default_factory=list)
 
     @property
     def dim(self) -> int:
