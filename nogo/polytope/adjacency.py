@@ -169,8 +169,18 @@ def first_facet(Y: np.ndarray, rng: np.random.Generator) -> tuple[tuple[int, ...
     raise PolytopeError("gift wrapping did not reach a facet")
 
 
-def _hull_ints(Z: np.ndarray) -> list[tuple[tuple[int, ...], int]]:
-    """Facets a·z <= b of conv(Z) (full-dimensional, integer points), by cddlib in rationals."""
+def _hull_ints(Z: np.ndarray, deadline: float | None = None) -> list[tuple[tuple[int, ...], int]]:
+    """Facets a·z <= b of conv(Z) (full-dimensional, integer points), by cddlib in rationals.
+
+    With a *deadline*, a large hull runs in a forked subprocess that is stopped when the time is up.
+    """
+    if deadline is not None and len(Z) > Z.shape[1] + 24:
+        from .hull import HullOutOfTime, run_bounded
+
+        try:
+            return run_bounded(_hull_ints, (Z,), deadline)
+        except HullOutOfTime:
+            raise OutOfTime() from None
     import cdd
 
     mat = cdd.Matrix([[1] + [int(v) for v in z] for z in Z], number_type="fraction")
@@ -194,7 +204,7 @@ class Decomposition:
     """The adjacency decomposition of conv(Y) under the group *perms* (rows: point permutations)."""
 
     def __init__(self, Y: np.ndarray, perms: np.ndarray, *, deadline: float | None = None,
-                 direct_excess: int = 40, depth: int = 0, max_depth: int = 4, seed: int = 1,
+                 direct_excess: int = 25, depth: int = 0, max_depth: int = 1, seed: int = 1,
                  progress=None, on_class=None):
         self.Y = Y
         self.perms = perms
@@ -208,6 +218,9 @@ class Decomposition:
         self.on_class = on_class
         self.stats = {"ridge hulls": 0, "recursive faces": 0, "wraps": 0}
         self.skipped = 0
+        from ..fanout import width
+
+        self.width = width() if depth == 0 else 1
         self.member_of: dict[bytes, bytes] = {}  # packed incidence of every facet of a known class -> class key
 
     # -- canonical forms ---------------------------------------------------------------------------
@@ -245,25 +258,51 @@ class Decomposition:
             # Balinski's theorem: the facet graph of a d-polytope is d-connected, so once the facets of
             # the classes not yet expanded number fewer than d, no facet can be missing (every missing
             # one would be cut off from the expanded ones by those fewer than d facets; at least one
-            # class must have been expanded for the argument to apply)
-            if not open_ or (done and sum(reps[key].orbit for key in open_) < dim):
+            # class must have been expanded for the argument to apply).  The classes left unexpanded
+            # are chosen as the dearest (most points on the face) per facet, within that budget.
+            if not open_:
                 break
-            # the class with the fewest points first: its face is the cheapest hull
-            key = min(open_, key=lambda q: int(np.count_nonzero(reps[q].incidence)))
-            queue.remove(key)
+            skip: set[bytes] = set()
+            if done:
+                budget = 0
+                for q in sorted(open_, key=lambda q: -self._cost(reps[q]) / reps[q].orbit):
+                    if budget + reps[q].orbit < dim:
+                        skip.add(q)
+                        budget += reps[q].orbit
+            todo = [q for q in open_ if q not in skip]
+            if not todo:
+                break
+            # the cheapest faces first; as many at once as the engine has workers (nogo.fanout)
+            batch = sorted(todo, key=lambda q: self._cost(reps[q]))[:max(1, self.width)]
             self._check_time()
-            F = reps[key]
-            ridges = self.ridges(F)
-            self.stats["wraps"] += len(ridges)
-            for h, B in _wrap_many(Y, F.a, F.b, ridges, F.incidence):
-                self._add(reps, queue, h, B)
-            done.add(key)
-            if self.on_class is not None and self.depth == 0:
-                self.on_class(F, reps)
+            for q in batch:
+                queue.remove(q)
+            tasks = [self._ridge_task(reps[q]) for q in batch]
+            if len(tasks) > 1:
+                from ..fanout import fan_out
+
+                results = fan_out(_ridge_job, [t for t, _ in tasks])
+            else:
+                results = [_ridge_job(tasks[0][0])]
+            for q, (task, keep), (found, st) in zip(batch, tasks, results):
+                F = reps[q]
+                for key_, v in st.items():
+                    self.stats[key_] += v
+                ridges = _lift(found, keep, Y.shape[1])
+                self.stats["wraps"] += len(ridges)
+                for h, B in _wrap_many(Y, F.a, F.b, ridges, F.incidence):
+                    self._add(reps, queue, h, B)
+                done.add(q)
+                if self.on_class is not None and self.depth == 0:
+                    self.on_class(F, reps)
             if self.progress is not None and self.depth == 0:
                 self.progress("classes closed", len(done & set(reps)), len(reps))
         self.skipped = len([key for key in queue if key not in done])
         return list(reps.values())
+
+    def _cost(self, F: ClassRep) -> float:
+        """A rough price of a face's ridge hull: it grows steeply with the points beyond a simplex."""
+        return 2.0 ** (int(np.count_nonzero(F.incidence)) - self.Y.shape[1])
 
     def _add(self, reps, queue, a, b) -> None:
         vals = _dot(self.Y, a)
@@ -281,38 +320,53 @@ class Decomposition:
         reps[key] = ClassRep(tuple(int(v) for v in a), int(b), inc, len(uniq), key)
         queue.append(key)
 
-    def ridges(self, F: ClassRep) -> list[tuple[list[int], int]]:
-        """Ridge functionals g·y <= C of face F (valid on F's points, tight on a ridge), one per stabiliser orbit."""
+    def _ridge_task(self, F: ClassRep):
+        """A pure work item for the ridges of face F, and the coordinates kept (see :func:`_ridge_job`)."""
         Y = self.Y
         k = Y.shape[1]
         idx = np.flatnonzero(F.incidence)
         j = next(i for i, v in enumerate(F.a) if v)  # drop a coordinate the hyperplane determines
         keep = [i for i in range(k) if i != j]
         Z = Y[idx][:, keep]
-        excess = len(idx) - (k - 1)
         stab = self.stabiliser(F.incidence)
-        if excess <= self.direct_excess or self.depth >= self.max_depth or len(stab) <= 2:
-            self.stats["ridge hulls"] += 1
-            self._check_time()
-            found = _hull_ints(Z)
-        else:
-            self.stats["recursive faces"] += 1
-            pos = -np.ones(len(Y), dtype=np.int64)
-            pos[idx] = np.arange(len(idx))
-            sub = np.unique(pos[stab[:, idx]], axis=0)
-            inner = Decomposition(Z, sub, deadline=self.deadline, direct_excess=self.direct_excess,
-                                  depth=self.depth + 1, max_depth=self.max_depth,
-                                  seed=int(self.rng.integers(1 << 30)))
-            found = [(r.a, r.b) for r in inner.run()]
-            for key, v in inner.stats.items():
-                self.stats[key] += v
-        out = []
-        for a, b in found:
-            g = [0] * k
-            for pos_, i in enumerate(keep):
-                g[i] = int(a[pos_])
-            out.append((g, int(b)))
-        return out
+        pos = -np.ones(len(Y), dtype=np.int64)
+        pos[idx] = np.arange(len(idx))
+        sub = np.unique(pos[stab[:, idx]], axis=0)
+        remaining = None if self.deadline is None else self.deadline - time.perf_counter()
+        return (Z, sub, self.direct_excess, self.depth, self.max_depth, int(self.rng.integers(1 << 30)),
+                remaining), keep
+
+
+def _ridge_job(task):
+    """Ridge inequalities of one face (in its own coordinates), one per stabiliser orbit, with counters.
+
+    Small faces: one exact hull.  Large faces with a non-trivial stabiliser: the
+    same decomposition one level down (Bremner, Dutour Sikirić, Schürmann).
+    """
+    Z, sub, direct_excess, depth, max_depth, seed, remaining = task
+    stats = {"ridge hulls": 0, "recursive faces": 0, "wraps": 0}
+    excess = len(Z) - Z.shape[1]
+    if excess <= direct_excess or depth >= max_depth or len(sub) <= 2:
+        stats["ridge hulls"] += 1
+        return _hull_ints(Z, None if remaining is None else time.perf_counter() + remaining), stats
+    stats["recursive faces"] += 1
+    deadline = None if remaining is None else time.perf_counter() + remaining
+    inner = Decomposition(Z, sub, deadline=deadline, direct_excess=direct_excess, depth=depth + 1,
+                          max_depth=max_depth, seed=seed)
+    found = [(r.a, r.b) for r in inner.run()]
+    for key, v in inner.stats.items():
+        stats[key] += v
+    return found, stats
+
+
+def _lift(found, keep: list[int], k: int) -> list[tuple[list[int], int]]:
+    out = []
+    for a, b in found:
+        g = [0] * k
+        for pos_, i in enumerate(keep):
+            g[i] = int(a[pos_])
+        out.append((g, int(b)))
+    return out
 
 
 def orbit_rows(a: tuple[int, ...], b: int, mats: np.ndarray) -> np.ndarray:

@@ -56,7 +56,7 @@ from ..fanout import fan_out
 from ..model import LinearModel
 from ..scenario import Scenario
 from .frame import affine_basis, choose_frame, no_signalling_functionals
-from .hull import _coords_matrix, _hull_in, int_matmul
+from .hull import HullOutOfTime, _coords_matrix, _hull_in, int_matmul
 from .ints import Point, PolytopeError, Progress, _zmat
 from .oracle import Answer, fingerprint, oracle_batch
 from .result import HullFacet, Polytope
@@ -267,7 +267,11 @@ class _Run:
                 break
             t0 = time.perf_counter()
             report("hull", len(points), k)
-            hull = _hull_in(fr, hull_frame, list(points))
+            try:
+                hull = _hull_in(fr, hull_frame, list(points), self.deadline)
+            except HullOutOfTime:
+                status = "partial"
+                break
             t_hull += time.perf_counter() - t0
             stats["hull_rounds"] += 1
             t0 = time.perf_counter()

@@ -74,10 +74,63 @@ def hull_estimate(n_points: int, dim: int) -> str:
     return "minutes or more (64 points in dimension 26 took about 8 minutes on one core)"
 
 
-def _hull_in(frame: Frame, hull_frame: Frame, points: list[Point]) -> list[tuple[tuple[int, ...], int]]:
-    """Facets of conv(points) in *frame*, computed by cddlib in *hull_frame* (the same affine hull)."""
-    if hull_frame is frame:
+class HullOutOfTime(Exception):
+    """The deadline passed while cddlib was running (its subprocess was stopped)."""
+
+
+def _hull_child(conn, fn, args) -> None:
+    try:
+        conn.send(("ok", fn(*args)))
+    except BaseException as err:  # reported to the parent, which raises it
+        conn.send(("error", repr(err)))
+    finally:
+        conn.close()
+
+
+def _bounded_hull(frame: Frame, points: list[Point], deadline: float | None):
+    """:func:`_exact_hull`, in a forked subprocess that is stopped at *deadline* (cddlib cannot be interrupted)."""
+    if deadline is None or len(points) <= frame.dim + 24:
         return _exact_hull(frame, points)
-    got = _exact_hull(hull_frame, points)
+    return run_bounded(_exact_hull, (frame, points), deadline)
+
+
+def run_bounded(fn, args, deadline: float):
+    """fn(*args) in a forked subprocess, stopped at *deadline* (:class:`HullOutOfTime`)."""
+    import multiprocessing as mp
+    import time
+
+    left = deadline - time.perf_counter()
+    if left <= 0:
+        raise HullOutOfTime()
+    if mp.current_process().daemon:  # a worker process (Dask, a pool) may not start children
+        return fn(*args)
+    ctx = mp.get_context("fork")
+    parent, child = ctx.Pipe(duplex=False)
+    proc = ctx.Process(target=_hull_child, args=(child, fn, args), daemon=True)
+    proc.start()
+    child.close()
+    try:
+        if not parent.poll(left):
+            raise HullOutOfTime()
+        kind, value = parent.recv()
+    finally:
+        if proc.is_alive():
+            proc.terminate()
+        proc.join(1)
+        parent.close()
+    if kind != "ok":
+        raise PolytopeError(f"the exact hull failed: {value}")
+    return value
+
+
+def _hull_in(frame: Frame, hull_frame: Frame, points: list[Point],
+             deadline: float | None = None) -> list[tuple[tuple[int, ...], int]]:
+    """Facets of conv(points) in *frame*, computed by cddlib in *hull_frame* (the same affine hull).
+
+    With a *deadline* a large hull runs in a subprocess, so a time limit is honoured within a second.
+    """
+    if hull_frame is frame:
+        return _bounded_hull(frame, points, deadline)
+    got = _bounded_hull(hull_frame, points, deadline)
     return frame.reduce_many([hull_frame.full(a) for a, _ in got], [b for _, b in got])
 

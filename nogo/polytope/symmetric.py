@@ -36,6 +36,9 @@ from .ints import PolytopeError, Progress, _zmat, primitive
 from .result import HullFacet, Polytope
 
 
+_MANY = 12  # points per dimension above which the plain hull is used
+
+
 def derive_symmetric(model: LinearModel, frame: str = "auto", *, generators: list | None = None, seed: int = 1,
                      time_limit: float | None = None, workers: int | None = None,
                      progress: Progress | None = None, chunk: int = 64, store=None) -> Polytope:
@@ -74,6 +77,12 @@ def derive_symmetric(model: LinearModel, frame: str = "auto", *, generators: lis
     run.lifted = True
     run.close_under(run.perms, lifted=True)
     run.stats["times"]["vertices"] = time.perf_counter() - run.t_vertices
+    k = run.fr.dim
+    if len(run.points) > _MANY * k:
+        # many vertices and (usually) few facets, as for no-signalling sets: one hull is the cheaper route
+        run.notes.append(f"{len(run.points)} points in dimension {k}: the plain hull was used "
+                         "(the decomposition pays per facet class and face, the hull per vertex)")
+        return run.plain_hull()
     if unlifted:
         run.notes.append("relabellings that are not symmetries of this model (exact check): "
                          + ", ".join(g.label for g in unlifted))
@@ -188,18 +197,14 @@ def _expand(run: _Run, points, Y, den, reps, forms, group, verified, status) -> 
     # exact: every facet holds on every point; representatives tight on dim - 1 independent points
     if facets:
         vals = int_matmul([f.a for f in facets], Y, k)
-        lim = np.array([f.b * den for f in facets], dtype=object)
-        tight_counts = []
-        for i, f in enumerate(facets):
-            row = vals[i]
-            if any(v > lim[i] for v in row) if vals.dtype == object else bool(np.any(row > f.b * den)):
-                raise PolytopeError("a facet of the symmetric route is violated by a certified point")
-            tight_counts.append(int(np.count_nonzero(row == f.b * den)))
-        for f, t in zip(facets, tight_counts):
-            f.tight = t
+        lim = np.array([f.b for f in facets], dtype=vals.dtype) * den
+        if np.any(vals > lim[:, None]):
+            raise PolytopeError("a facet of the symmetric route is violated by a certified point")
+        on_all = vals == lim[:, None]
+        for f, t in zip(facets, np.count_nonzero(on_all, axis=1)):
+            f.tight = int(t)
         for rep_at, _ in classes:
-            f = facets[rep_at]
-            on = [j for j, v in enumerate(vals[rep_at]) if v == f.b * den]
+            on = np.flatnonzero(on_all[rep_at])
             M = _zmat([[1] + [int(v) for v in Y[j]] for j in on], k + 1)
             if M.rank() != k:
                 raise PolytopeError("a class representative is not tight on a facet's worth of points")
