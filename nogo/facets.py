@@ -643,6 +643,10 @@ def to_dict(r: FacetResult, with_vertices: bool = True) -> dict[str, Any]:
         "notes": P.notes,
         "seconds": round(r.seconds, 3),
         "from cache": r.from_cache,
+        "re-verified from the store": r.reverified,
+        "route": "classes" if P.classes is not None else "plain hull",
+        "group order": r.group_order,
+        "warnings": list(r.warnings),
     }
     if with_vertices:
         out["vertices"] = [{"coordinates": [q(y) for y in P.frame.coords_of(v)],

@@ -43,7 +43,7 @@ def current_engine() -> str:
 
 @contextlib.contextmanager
 def engine(*, scheduler: str | None = None, local_workers: int | None = None,
-           threads_per_worker: int = 1) -> Iterator[object]:
+           threads_per_worker: int = 1, connect_timeout: str = "10s") -> Iterator[object]:
     """Run every :func:`fan_out` inside the block on Dask.
 
     ``scheduler``: address of an existing Dask scheduler (e.g.
@@ -63,7 +63,7 @@ def engine(*, scheduler: str | None = None, local_workers: int | None = None,
     try:
         if scheduler is not None:
             try:
-                client = Client(scheduler, timeout="10s")
+                client = Client(scheduler, timeout=connect_timeout)
             except (OSError, TimeoutError, ValueError) as err:
                 raise InputError(f"cannot reach the Dask scheduler at '{scheduler}': {err}",
                                  hint="give the address printed by the scheduler, e.g. tcp://host:8786") from None

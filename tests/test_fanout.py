@@ -27,7 +27,7 @@ def test_unreachable_scheduler_is_an_input_error():
     from nogo.errors import InputError
 
     with pytest.raises(InputError):
-        with fanout.engine(scheduler="tcp://127.0.0.1:9"):
+        with fanout.engine(scheduler="tcp://127.0.0.1:9", connect_timeout="2s"):
             pass
 
 
