@@ -58,12 +58,20 @@ class Facet:
     """One facet: the inequality (full coordinates, written in the frame's notation) and its class."""
 
     index: int
-    inequality: Inequality
+    _inequality: Inequality | None  # built on first use (a list of 53,856 facets need not write them all)
     a: tuple[int, ...]  # coefficients over the frame's coordinates
     b: int
     class_name: str
     vertices: tuple[int, ...]  # indices into FacetResult.vertices that lie on it
     verified: bool | None  # True: a Farkas bound was checked exactly
+    _polytope: Polytope | None = field(default=None, repr=False, compare=False)
+    _hull: HullFacet | None = field(default=None, repr=False, compare=False)
+
+    @property
+    def inequality(self) -> Inequality:
+        if self._inequality is None:
+            self._inequality = self._polytope.inequality(self._hull, self.class_name)
+        return self._inequality
 
     @property
     def text(self) -> str:
@@ -338,9 +346,11 @@ def _build(theory_file: str, P: Polytope, gens: list[Generator], seconds: float,
     Y, den = _coords_matrix(P.frame, P.vertices)
     vals = int_matmul([f.a for f in P.facets], Y, k)
     facets = []
+    lim = np.array([f.b for f in P.facets], dtype=vals.dtype) * den if P.facets else None
+    tight = (vals == lim[:, None]) if P.facets else None
     for i, f in enumerate(P.facets):
-        on = tuple(j for j, v in enumerate(vals[i]) if v == f.b * den)
-        facets.append(Facet(i, P.inequality(f, name_of.get(i, "")), f.a, f.b, name_of.get(i, ""), on, f.verified))
+        on = tuple(int(j) for j in np.flatnonzero(tight[i]))
+        facets.append(Facet(i, None, f.a, f.b, name_of.get(i, ""), on, f.verified, P, f))
     if classes_in is not None:
         kept = classes_in[0].get("_kept", []) if classes_in else []
         dropped = classes_in[0].get("_dropped", []) if classes_in else []

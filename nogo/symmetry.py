@@ -255,48 +255,121 @@ def lift_to_model(model, gen: Generator) -> list[int] | None:
     return None
 
 
-def _normal_row(row: dict, rhs) -> tuple:
-    items = sorted((j, Fraction(v)) for j, v in row.items() if v)
-    if not items:
-        return ((), Fraction(rhs))
-    lead = items[0][1]
-    return (tuple((j, v / lead) for j, v in items), Fraction(rhs) / lead)
+def _row_ints(model):
+    """Each row with its right-hand side as primitive integers: (columns, values, rhs); cached on the model."""
+    import math
+
+    import numpy as np
+
+    got = model.extra.get("_row_ints")
+    if got is not None:
+        return got
+    out = []
+    for row, rhs in zip(model.rows, model.rhs):
+        items = sorted((j, Fraction(v)) for j, v in row.items() if v)
+        vals = [v for _, v in items] + [Fraction(rhs)]
+        L = 1
+        for v in vals:
+            L = L * v.denominator // math.gcd(L, v.denominator)
+        ints = [int(v * L) for v in vals]
+        g = 0
+        for v in ints:
+            g = math.gcd(g, abs(v))
+        g = g or 1
+        out.append((np.array([j for j, _ in items], dtype=np.int64), [v // g for v in ints[:-1]], ints[-1] // g))
+    model.extra["_row_ints"] = out
+    return out
+
+
+def _key(cols, vals, rhs) -> tuple:
+    """Rows as a set element: columns sorted, the sign fixed by the first coefficient."""
+    order = sorted(range(len(cols)), key=lambda t: cols[t])
+    sign = 1 if not vals or vals[order[0]] > 0 else -1
+    return (tuple(int(cols[t]) for t in order), tuple(sign * vals[t] for t in order), sign * rhs)
 
 
 def _model_invariant(model, sigma: list[int], perm_obs: list[int]) -> bool:
+    import numpy as np
+
     for j, obs in enumerate(model.observe):
         moved = {perm_obs[i]: w for i, w in obs.items() if w}
         target = {i: w for i, w in model.observe[sigma[j]].items() if w}
         if moved != target:
             return False
-    rows = {_normal_row(r, b) for r, b in zip(model.rows, model.rhs)}
-    moved = {_normal_row({sigma[j]: v for j, v in r.items()}, b) for r, b in zip(model.rows, model.rhs)}
-    if moved == rows:
+    rows = _row_ints(model)
+    base = model.extra.get("_row_keys")
+    if base is None:
+        base = model.extra["_row_keys"] = {_key(list(c), v, b) for c, v, b in rows}
+    sig = np.array(sigma, dtype=np.int64)
+    moved = {_key(list(sig[c]), v, b) for c, v, b in rows}
+    if moved == base:
         return True
     return _same_row_space(model, sigma)
 
 
 def _same_row_space(model, sigma: list[int]) -> bool:
-    """Exact: the permuted equations have the same solution set as the original ones (equal ranks)."""
-    import flint
+    """Exact: the permuted equations have the same solution set as the original ones.
 
+    With a solution q0 of rows·q = rhs and an integer basis N of the null space
+    of the rows (both computed once per model, python-flint), the solution set
+    is mapped onto itself exactly when rows·(σ q0) = rhs and rows·(σ N) = 0,
+    checked with integer sparse products.
+    """
+    import numpy as np
+    import scipy.sparse as sp
+
+    rows = _row_ints(model)
     n = len(model.columns)
+    cached = model.extra.get("_null_space")
+    if cached is None:
+        import flint
 
-    def ints(rows_rhs):
-        out = []
-        for r, b in rows_rhs:
-            vals = [Fraction(v) for v in r.values()] + [Fraction(b)]
-            L = 1
-            for v in vals:
-                L = L * v.denominator // __import__("math").gcd(L, v.denominator)
-            line = [0] * (n + 1)
-            for j, v in r.items():
-                line[j] = int(Fraction(v) * L)
-            line[n] = int(Fraction(b) * L)
-            out.append(line)
-        return out
-    orig = ints(zip(model.rows, model.rhs))
-    perm = ints(({sigma[j]: v for j, v in r.items()}, b) for r, b in zip(model.rows, model.rhs))
-    A = flint.fmpz_mat(orig)
-    AB = flint.fmpz_mat(orig + perm)
-    return A.rank() == AB.rank()
+        A = flint.fmpz_mat([[0] * n for _ in rows]) if rows else flint.fmpz_mat(0, n)
+        for i, (c, v, _) in enumerate(rows):
+            for j, x in zip(c, v):
+                A[i, int(j)] = x
+        X, nullity = A.nullspace()
+        N = np.array([[int(X[i, j]) for j in range(nullity)] for i in range(n)], dtype=object)
+        Ab = flint.fmpq_mat(len(rows), n + 1)
+        for i, (c, v, b) in enumerate(rows):
+            for j, x in zip(c, v):
+                Ab[i, int(j)] = x
+            Ab[i, n] = b
+        R, rank = Ab.rref()
+        q0 = [flint.fmpq(0)] * n
+        for i in range(rank):
+            piv = next(j for j in range(n + 1) if R[i, j] != 0)
+            if piv == n:
+                return False  # no solution: nothing to preserve
+            q0[piv] = R[i, n] / R[i, piv]
+        den = 1
+        for v in q0:
+            den = den * int(v.q) // np.gcd(den, int(v.q))
+        Q0 = np.array([int(v.p) * (den // int(v.q)) for v in q0], dtype=object)
+        ri = [i for i, (c, _, _) in enumerate(rows) for _ in c]
+        ci = [int(j) for c, _, _ in rows for j in c]
+        vi = [x for _, v, _ in rows for x in v]
+        B = np.array([b for _, _, b in rows], dtype=object)
+        amax = max((abs(x) for x in vi), default=0)
+        width = max((len(c) for c, _, _ in rows), default=0)
+        big = max([abs(int(x)) for x in N.flat] + [abs(int(x)) for x in Q0] + [abs(int(x)) * den for x in B] + [0])
+        if amax < 2**31 and amax * big * max(width, 1) < 2**62:
+            Asp = sp.csr_matrix((np.array(vi, dtype=np.int64), (ri, ci)), shape=(len(rows), n))
+            N, Q0, B = N.astype(np.int64), Q0.astype(np.int64), B.astype(np.int64)
+        else:
+            Asp = None
+        cached = model.extra["_null_space"] = (Asp, N, Q0, den, B)
+    Asp, N, Q0, den, B = cached
+    inv = np.argsort(np.array(sigma))
+    # (σ x)[sigma[j]] = x[j], i.e. σ x = x[inv]
+    if Asp is None:  # large numbers: Python integers, row by row
+        for (c, v, b), i in zip(rows, range(len(rows))):
+            if sum(x * int(Q0[inv[j]]) for j, x in zip(c, v)) != b * den:
+                return False
+            for t in range(N.shape[1]):
+                if sum(x * int(N[inv[j], t]) for j, x in zip(c, v)) != 0:
+                    return False
+        return True
+    if np.any(Asp @ Q0[inv] != B * den):
+        return False
+    return not N.size or not np.any((Asp @ N[inv, :]) != 0)

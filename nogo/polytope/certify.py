@@ -121,13 +121,16 @@ def _symmetric(run, data, verts, Y, den, model, generators):
     from .group import enumerate_group
     from .symmetric import _expand
 
-    by_label = {g.label: g for g in generators}
+    labels = set(data["generators"])
+    if not labels <= {g.label for g in generators}:
+        return "the stored symmetries are not relabellings of this scenario"
     used = []
-    for label in data["generators"]:
-        g = by_label.get(label)
-        if g is None or lift_to_model(model, g) is None:
-            return f"the stored symmetry '{label}' is not a verified symmetry of the model"
-        used.append((label, _perm_of(model.scenario, g.move)))
+    for g in generators:
+        if g.label not in labels:
+            continue
+        if lift_to_model(model, g) is None:
+            return f"the stored symmetry '{g.label}' is not a verified symmetry of the model"
+        used.append((g.label, _perm_of(model.scenario, g.move)))
     group, refused = enumerate_group(verts, run.fr, used)
     if refused or group.order != data["group_order"]:
         return "the stored symmetry group does not act on the stored vertices as recorded"

@@ -206,6 +206,16 @@ class Frame:
 
     def full(self, a: Sequence[int]) -> list[Fraction]:
         """The full-coordinate functional Σ a_i g_i."""
+        gint = getattr(self, "_gint", None)
+        if gint is None:
+            vecs = [f.vector for f in self.functionals]
+            if all(Fraction(g).denominator == 1 for v in vecs for g in v):
+                gint = np.array([[int(g) for g in v] for v in vecs], dtype=np.int64).reshape(self.dim, len(self.base))
+            else:
+                gint = False
+            self._gint = gint
+        if gint is not False and max((abs(int(v)) for v in a), default=0) < 2**40:
+            return [Fraction(int(v)) for v in np.array([int(v) for v in a], dtype=np.int64) @ gint]
         d = len(self.base)
         out = [Fraction(0)] * d
         for ai, f in zip(a, self.functionals):
