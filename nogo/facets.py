@@ -464,6 +464,7 @@ def facets(theory: Theory, bundle, *, frame: str = "auto", cache: bool | str | P
 
         if store.put(key, P.fingerprint, "facets", to_payload(P)):
             r.cache_file = str(store.path)
+        store.drop_run(key)  # the pieces of the run are no longer needed
         warnings += [w for w in store.warnings if w not in warnings]
     r.warnings = warnings
     return r

@@ -135,3 +135,39 @@ def test_store_pieces_round_trip(tmp_path):
     assert s.pieces("run") == {"points=3": {"closed": [[[1, 2], 3]], "known": []}}
     s.drop_run("run")
     assert s.pieces("run") == {}
+
+
+def test_interrupted_run_resumes_from_its_closed_classes(theory, tmp_path):
+    # local friendliness, 932 facets (Bong et al., Nature Physics 16, 1199 (2020), arXiv:1907.05607).
+    # The interruption is made deterministic: the store stops the run after two closed classes.
+    from nogo.compile import compile_bundle
+    from nogo.polytope import derive_symmetric
+    from nogo.polytope.adjacency import OutOfTime
+    from nogo.store import RunPieces, Store
+    from nogo.symmetry import bundle_generators
+
+    th = theory("friends-2x3")
+    model = compile_bundle(th, "local-friendliness")
+    gens = bundle_generators(th, "local-friendliness")
+    fresh = derive_symmetric(model, generators=gens)
+    final = fresh.stats["points"]
+
+    class Interrupting(RunPieces):
+        saved = 0
+
+        def save(self, n_points, closed, orbit, known):
+            super().save(n_points, closed, orbit, known)
+            if n_points == final:
+                Interrupting.saved += 1
+                if Interrupting.saved == 2:
+                    raise OutOfTime()
+
+    store = Store(tmp_path)
+    cut = derive_symmetric(model, generators=gens, store=Interrupting(store, "run"))
+    assert cut.status == "partial" and any("time limit" in n for n in cut.notes)
+    assert len(store.pieces("run")[f"points={final}"]["closed"]) == 2
+    resumed = derive_symmetric(model, generators=gens, store=RunPieces(store, "run"))
+    assert resumed.status == "complete" and resumed.stats["classes resumed"] == 2
+    assert {(f.a, f.b) for f in resumed.facets} == {(f.a, f.b) for f in fresh.facets}
+    assert len(resumed.facets) == 932
+    assert resumed.stats["ridge hulls"] < fresh.stats["ridge hulls"]  # the closed classes were not redone

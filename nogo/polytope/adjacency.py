@@ -227,11 +227,8 @@ class Decomposition:
     def canonical(self, inc: np.ndarray) -> tuple[bytes, int]:
         """(smallest packed image of the incidence set under the group, orbit size)."""
         imgs = inc[self.inv]  # image under g: point i is tight iff g^-1(i) is
-        packed = np.packbits(imgs, axis=1)
-        order = np.lexsort(packed.T[::-1])
-        key = packed[order[0]].tobytes()
-        stab = int(np.count_nonzero((imgs == inc).all(axis=1)))
-        return key, len(self.perms) // stab
+        uniq = np.unique(np.packbits(imgs, axis=1), axis=0)  # rows sorted: the first is the smallest image
+        return uniq[0].tobytes(), len(uniq)
 
     def stabiliser(self, inc: np.ndarray) -> np.ndarray:
         return self.perms[(inc[self.inv] == inc).all(axis=1)]

@@ -113,6 +113,7 @@ def _classes(run: _Run, lifted: list, store) -> Polytope:
                 (_frame_form(r, den), r.orbit) for r in reps.values()))
         try:
             if resumed:
+                stats["classes resumed"] = len(resumed["closed"])
                 reps = dec.run(start=[_int_form(ab, den) for ab, _ in resumed["known"]],
                                done_keys={dec.canonical(_incidence(Y, _int_form(ab, den)))[0]
                                           for ab in resumed["closed"]})
@@ -148,8 +149,6 @@ def _classes(run: _Run, lifted: list, store) -> Polytope:
                 raise PolytopeError("the oracle returned a point beyond a facet that the hull already holds")
             break
         run.close_under(run.perms, lifted=True)
-        if store is not None:
-            store.clear()
     stats["times"]["classes"] = t_dec
     stats["times"]["class checks"] = t_check
     stats["classes"] = len(reps)
