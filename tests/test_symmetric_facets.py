@@ -121,3 +121,17 @@ def test_bell_3x2_plain_hull_equals_classes(theory):
     S = derive_symmetric(model, generators=bundle_generators(th, "Bell-local"))
     plain = derive_polytope(model)
     assert _keys(S) == _keys(plain)
+
+
+def test_group_is_checked_on_the_vertex_set(theory):
+    """A relabelling that does not permute the vertices is refused when the group is built (exact)."""
+    from nogo.polytope.group import enumerate_group
+    from nogo.symmetry import permutation
+
+    P = _symmetric(theory, "friends-2x3", "local-friendliness")
+    sc = P.scenario
+    gens = [(g.label, permutation(sc, g.move)) for g in generators(sc)]  # the read-out setting not pinned
+    group, refused = enumerate_group(P.vertices, P.frame, gens)
+    # Bong et al. (2020): exchanging the read-out setting 1 with setting 2 or 3 is no symmetry of the set
+    assert "permute settings of A" in refused and "permute settings of B" in refused
+    assert group.order == P.group_order == 512

@@ -68,15 +68,27 @@ class PointGroup:
         return len(self.perms)
 
 
-def point_permutation(points: list[Point], index: dict, perm: list[int]) -> np.ndarray | None:
-    """The coordinate permutation as a permutation of the points, or None when it does not map the set onto itself."""
-    d = len(perm)
+def _integer_points(points: list[Point]) -> np.ndarray:
+    den = _lcm(Fraction(v).denominator for p in points for v in p) if points else 1
+    M = np.array([[int(Fraction(v) * den) for v in p] for p in points], dtype=object)
+    return M.astype(np.int64) if (not M.size or int(np.max(np.abs(M))) < 2**62) else M
+
+
+def point_permutation(points: list[Point], index: dict, perm: list[int], P: np.ndarray | None = None) -> np.ndarray | None:
+    """The coordinate permutation as a permutation of the points, or None when it does not map the set onto itself.
+
+    Exact: the points as integers over one denominator, compared row by row as bytes.
+    """
+    if P is None:
+        P = _integer_points(points)
+    def key(row):
+        return tuple(int(v) for v in row) if P.dtype == object else np.ascontiguousarray(row).tobytes()
+    keys = {key(row): i for i, row in enumerate(P)}
+    moved = np.empty_like(P)
+    moved[:, np.array(perm, dtype=np.int64)] = P  # coordinate a of a point goes to perm[a]
     out = np.empty(len(points), dtype=np.int64)
-    for i, p in enumerate(points):
-        q = [Fraction(0)] * d
-        for a, b in enumerate(perm):
-            q[b] = p[a]
-        j = index.get(tuple(q))
+    for i, row in enumerate(moved):
+        j = keys.get(key(row))
         if j is None:
             return None
         out[i] = j
@@ -90,8 +102,9 @@ def enumerate_group(points: list[Point], frame: Frame, gens: list[tuple[str, lis
     n, k = len(points), frame.dim
     kept: list[tuple[str, np.ndarray, np.ndarray]] = []
     refused: list[str] = []
+    P = _integer_points(points)
     for label, perm in gens:
-        pp = point_permutation(points, index, perm)
+        pp = point_permutation(points, index, perm, P)
         if pp is None:
             refused.append(label)
         else:
