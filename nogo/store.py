@@ -60,8 +60,9 @@ class Store:
         return con
 
     def _warn(self, what: str, err: Exception) -> None:
-        self.warnings.append(f"warning: the store {self.path} could not be {what} ({err}); "
-                             "the result is shown but not kept")
+        text = f"warning: the store {self.path} could not be {what} ({err}); the result is shown but not kept"
+        if text not in self.warnings:
+            self.warnings.append(text)
 
     # -- finished entries ------------------------------------------------------------------------
     def get(self, key: str) -> dict | None:
