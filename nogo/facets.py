@@ -454,7 +454,7 @@ def facets(theory: Theory, bundle, *, frame: str = "auto", cache: bool | str | P
 
             pieces = RunPieces(store, key)
         P = derive_symmetric(model, frame, generators=gens, seed=seed, time_limit=time_limit, workers=workers,
-                             progress=progress, store=pieces)
+                             progress=progress, store=pieces, force=(route == "symmetric"))
     if progress:
         progress("classes", 0, None)
     r = _build(theory_file, P, gens, 0.0)

@@ -41,12 +41,14 @@ _MANY = 12  # points per dimension above which the plain hull is used
 
 def derive_symmetric(model: LinearModel, frame: str = "auto", *, generators: list | None = None, seed: int = 1,
                      time_limit: float | None = None, workers: int | None = None,
-                     progress: Progress | None = None, chunk: int = 64, store=None) -> Polytope:
+                     progress: Progress | None = None, chunk: int = 64, store=None,
+                     force: bool = False) -> Polytope:
     """The exact facets of the model's set of behaviours, class by class (see the module docstring).
 
     ``generators``: :class:`nogo.symmetry.Generator` moves (e.g. from
     :func:`nogo.symmetry.bundle_generators`).  When none of them lifts to a
     verified symmetry of the model, the plain route runs instead.
+    ``force``: decompose even when there are many points per dimension.
     ``store``: an optional :class:`nogo.store.RunPieces` where each closed
     class is written as it is found and from which an interrupted run resumes.
 
@@ -78,7 +80,7 @@ def derive_symmetric(model: LinearModel, frame: str = "auto", *, generators: lis
     run.close_under(run.perms, lifted=True)
     run.stats["times"]["vertices"] = time.perf_counter() - run.t_vertices
     k = run.fr.dim
-    if len(run.points) > _MANY * k:
+    if len(run.points) > _MANY * k and not force:
         # many vertices and (usually) few facets, as for no-signalling sets: one hull is the cheaper route
         run.notes.append(f"{len(run.points)} points in dimension {k}: the plain hull was used "
                          "(the decomposition pays per facet class and face, the hull per vertex)")
