@@ -4,8 +4,11 @@
 * :mod:`.frame` — affine coordinates of the set (Collins–Gisin, correlators, probabilities);
 * :mod:`.hull` — exact convex hulls (cddlib, rationals), optionally in a subprocess with a time limit;
 * :mod:`.derive` — the plain route: vertices by the oracle, one hull, every facet checked;
-* :mod:`.adjacency` — the symmetric route: facets up to symmetry by adjacency decomposition;
-* :mod:`.certify` — Farkas certificates of facets in batches, in exact integer arithmetic.
+* :mod:`.group` — the symmetry group acting on the points, and on inequalities;
+* :mod:`.adjacency` — facets up to symmetry by adjacency decomposition (Christof & Reinelt 2001;
+  Bremner, Dutour Sikirić, Schürmann, arXiv:math/0702239);
+* :mod:`.symmetric` — the symmetric route: verified model symmetries, classes, certificates per class;
+* :mod:`.certify` — stored descriptions re-verified with the exact checks of a fresh derivation.
 """
 
 from .derive import derive_polytope
