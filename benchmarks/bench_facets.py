@@ -3,18 +3,22 @@
 For each case, in one run:
 
 * ``derive``: `nogo.facets.facets` from the theory file (compile, LP-oracle vertex
-  discovery, affine hull proof, exact hull with cddlib, exact Farkas check of every
-  facet, symmetry classes), with the cache off;
+  discovery, affine hull proof, facets class by class under the verified symmetries,
+  a Farkas certificate per class representative, exact checks), store off;
 * ``bare hull``: cddlib (pycddlib 2.1, rational arithmetic) on the final vertex
-  list alone, in the same coordinates the derivation hands to cddlib, and in
-  Collins–Gisin coordinates.
+  list alone, what a user would write by hand, in probability and Collins–Gisin
+  coordinates;
+* ``re-verify``: reading the stored result back with every exact check of
+  `nogo.polytope.certify` (target <= 0.1 x derive for the 932-facet set);
+* with ``--workers``: the same derivation on a 2-worker Dask LocalCluster.
 
-The ratio derive / bare hull shows what the derivation adds to the hull itself.
 CPU seconds are reported beside wall seconds because other work may share the
 machine.
 
-    python benchmarks/bench_facets.py               # 684- and 932-facet sets
-    python benchmarks/bench_facets.py --three-party # also the 53,856-facet set (minutes)
+    python benchmarks/bench_facets.py                # 684- and 932-facet sets
+    python benchmarks/bench_facets.py --three-party  # also the 53,856-facet set by classes
+    python benchmarks/bench_facets.py --bare-three   # ... and its bare hull (about 20 minutes)
+    python benchmarks/bench_facets.py --workers      # 1 against 2 Dask workers (684-facet set)
 """
 
 from __future__ import annotations
@@ -22,6 +26,7 @@ from __future__ import annotations
 import argparse
 import resource
 import sys
+import tempfile
 import time
 from pathlib import Path
 
@@ -39,16 +44,25 @@ def timed(fn):
     return out, time.perf_counter() - w, time.process_time() - c
 
 
-def case(theory: str, bundle: str, expected: int, source: str) -> None:
+def case(theory: str, bundle: str, expected: int, source: str, bare: bool = True) -> None:
     th = load_theory(ROOT / "theories" / f"{theory}.yaml")
-    r, w, c = timed(lambda: facets(th, bundle, cache=False))
+    with tempfile.TemporaryDirectory() as folder:
+        r, w, c = timed(lambda: facets(th, bundle, cache=Path(folder)))
+        again, rw, rc = timed(lambda: facets(th, bundle, cache=Path(folder)))
+    assert again.reverified and len(again.facets) == len(r.facets)
     ok = "OK" if len(r.facets) == expected else f"EXPECTED {expected}"
+    st = r.polytope.stats
     print(f"\n{theory} / {bundle}: {len(r.facets)} facets ({ok}; {source}), {len(r.classes)} classes, "
-          f"{len(r.vertices)} vertices, dimension {r.dim}")
+          f"{len(r.vertices)} vertices, dimension {r.dim}, group order {r.group_order}")
     print(f"  derive from declarations : {w:8.2f} s wall {c:8.2f} s cpu   "
-          f"({r.polytope.stats['oracle_calls']} LP calls, {r.polytope.stats['hull_rounds']} hull rounds)")
-    for stage, t in r.polytope.stats["times"].items():
+          f"({st['oracle_calls']} LP calls, {st.get('ridge hulls', 0)} ridge hulls, "
+          f"{st.get('recursive faces', 0)} faces by recursion)")
+    for stage, t in st["times"].items():
         print(f"      {stage:<20} {t:8.2f} s")
+    print(f"  re-verify stored result  : {rw:8.2f} s wall {rc:8.2f} s cpu   ratio re-verify/derive (cpu) "
+          f"{rc / c:5.3f}")
+    if not bare:
+        return
     for kind in ("probabilities", "collins-gisin"):
         fr = choose_frame(r.scenario, r.vertices, kind)
         h, hw, hc = timed(lambda: _exact_hull(fr, r.vertices))
@@ -57,14 +71,29 @@ def case(theory: str, bundle: str, expected: int, source: str) -> None:
               f"{c / hc:5.2f}")
 
 
+def workers_case() -> None:
+    from nogo.fanout import engine
+
+    th = load_theory(ROOT / "theories" / "bell-2x3.yaml")
+    _, w1, _ = timed(lambda: facets(th, "Bell-local", cache=False))
+    with engine(local_workers=2):
+        r, w2, _ = timed(lambda: facets(th, "Bell-local", cache=False))
+    print(f"\nbell-2x3 on 1 process: {w1:.2f} s wall; on a 2-worker Dask LocalCluster: {w2:.2f} s wall; "
+          f"speed-up {w1 / w2:.2f} ({len(r.facets)} facets)")
+
+
 def main() -> None:
     ap = argparse.ArgumentParser()
-    ap.add_argument("--three-party", action="store_true", help="also the three-party Bell polytope (minutes)")
+    ap.add_argument("--three-party", action="store_true", help="also the three-party Bell polytope by classes")
+    ap.add_argument("--bare-three", action="store_true", help="also its bare hull (about 20 minutes)")
+    ap.add_argument("--workers", action="store_true", help="1 against 2 Dask workers")
     args = ap.parse_args()
     case("bell-2x3", "Bell-local", 684, "Collins & Gisin, J. Phys. A 37, 1775 (2004)")
     case("friends-2x3", "local-friendliness", 932, "Bong et al., Nature Physics 16, 1199 (2020)")
-    if args.three_party:
-        case("bell-3x2", "Bell-local", 53_856, "Śliwa, Phys. Lett. A 317, 165 (2003)")
+    if args.three_party or args.bare_three:
+        case("bell-3x2", "Bell-local", 53_856, "Śliwa, Phys. Lett. A 317, 165 (2003)", bare=args.bare_three)
+    if args.workers:
+        workers_case()
     rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
     print(f"\npeak memory (max resident set size): {rss / 1024:.0f} MB")
 

@@ -42,7 +42,7 @@ import numpy as np
 from .compile import compile_bundle
 from .inequality import Inequality
 from .polytope import (Frame, HullFacet, Point, Polytope, Progress, _coords_matrix, _lcm, choose_frame,
-                       derive_polytope, fingerprint, int_matmul, primitive)
+                       derive_polytope, derive_symmetric, fingerprint, int_matmul, primitive)
 from .report import q
 from .symmetry import Generator, bundle_generators, permutation
 from .theory import Theory
@@ -58,12 +58,20 @@ class Facet:
     """One facet: the inequality (full coordinates, written in the frame's notation) and its class."""
 
     index: int
-    inequality: Inequality
+    _inequality: Inequality | None  # built on first use (a list of 53,856 facets need not write them all)
     a: tuple[int, ...]  # coefficients over the frame's coordinates
     b: int
     class_name: str
     vertices: tuple[int, ...]  # indices into FacetResult.vertices that lie on it
     verified: bool | None  # True: a Farkas bound was checked exactly
+    _polytope: Polytope | None = field(default=None, repr=False, compare=False)
+    _hull: HullFacet | None = field(default=None, repr=False, compare=False)
+
+    @property
+    def inequality(self) -> Inequality:
+        if self._inequality is None:
+            self._inequality = self._polytope.inequality(self._hull, self.class_name)
+        return self._inequality
 
     @property
     def text(self) -> str:
@@ -92,6 +100,9 @@ class FacetResult:
     from_cache: bool = False
     cache_file: str = ""
     seconds: float = 0.0
+    group_order: int | None = None  # order of the symmetry group acting on the set (symmetric route)
+    reverified: bool = False  # read from the store and re-verified there with exact checks
+    warnings: list[str] = field(default_factory=list)
 
     @property
     def scenario(self):
@@ -296,7 +307,11 @@ def _build(theory_file: str, P: Polytope, gens: list[Generator], seconds: float,
            classes_in: list[dict] | None = None) -> FacetResult:
     """Facets, classes and names from a polytope."""
     k = P.dim
-    if classes_in is None:
+    if classes_in is None and P.classes is not None:
+        orbits = [members for _, members in P.classes]
+        kept = list(P.group_generators)
+        dropped = [g.label for g in gens if g.label not in kept]
+    elif classes_in is None:
         orbits, kept, dropped = classify(P, gens)
     else:
         orbits = [c["members"] for c in classes_in]
@@ -331,14 +346,16 @@ def _build(theory_file: str, P: Polytope, gens: list[Generator], seconds: float,
     Y, den = _coords_matrix(P.frame, P.vertices)
     vals = int_matmul([f.a for f in P.facets], Y, k)
     facets = []
+    lim = np.array([f.b for f in P.facets], dtype=vals.dtype) * den if P.facets else None
+    tight = (vals == lim[:, None]) if P.facets else None
     for i, f in enumerate(P.facets):
-        on = tuple(j for j, v in enumerate(vals[i]) if v == f.b * den)
-        facets.append(Facet(i, P.inequality(f, name_of.get(i, "")), f.a, f.b, name_of.get(i, ""), on, f.verified))
+        on = tuple(int(j) for j in np.flatnonzero(tight[i]))
+        facets.append(Facet(i, None, f.a, f.b, name_of.get(i, ""), on, f.verified, P, f))
     if classes_in is not None:
         kept = classes_in[0].get("_kept", []) if classes_in else []
         dropped = classes_in[0].get("_dropped", []) if classes_in else []
     return FacetResult(theory_file, P.label, P.assumptions, P, facets, classes, list(kept), list(dropped),
-                       seconds=seconds)
+                       seconds=seconds, group_order=P.group_order)
 
 
 # ---------------------------------------------------------------------------
@@ -348,46 +365,32 @@ def cache_dir() -> Path:
     return Path(os.environ.get("NOGO_CACHE") or Path.cwd() / ".nogo-cache")
 
 
-def _cache_key(model, frame: str, gens: list[Generator]) -> str:
+def _cache_key(model, frame: str, gens: list[Generator], route: str) -> str:
     h = hashlib.sha256()
-    for part in (CACHE_VERSION, fingerprint(model), frame, "|".join(g.label for g in gens)):
+    for part in (CACHE_VERSION, fingerprint(model), frame, route, "|".join(g.label for g in gens)):
         h.update(part.encode())
         h.update(b"\0")
     return h.hexdigest()[:24]
 
 
-def _to_cache(r: FacetResult) -> dict:
-    P = r.polytope
-    return {
-        "format": CACHE_VERSION,
-        "frame": P.frame.kind,
-        "vertices": [[str(v) for v in p] for p in P.vertices],
-        "equations": [[list(h), str(v)] for h, v in P.equations],
-        "facets": [[list(f.a), f.b, f.verified, str(f.bound) if f.bound is not None else None, f.method]
-                   for f in P.facets],
-        "classes": [{"members": c.members, "_kept": r.symmetries, "_dropped": r.dropped_symmetries}
-                    for c in r.classes],
-        "status": P.status, "stats": P.stats, "notes": P.notes, "seconds": r.seconds,
-    }
+def _load(store, key: str, model, gens, theory_file: str) -> tuple[FacetResult | None, str]:
+    """A stored result, re-verified (:func:`nogo.polytope.certify.reverify`); (None, reason) when it fails."""
+    from .polytope.certify import reverify
 
-
-def _from_cache(data: dict, model, theory_file: str) -> FacetResult:
-    sc = model.scenario
-    verts = [tuple(Fraction(v) for v in p) for p in data["vertices"]]
-    fr = choose_frame(sc, verts, data["frame"])
-    facets = [HullFacet(tuple(a), b, ver, 0, Fraction(bd) if bd is not None else None, m)
-              for a, b, ver, bd, m in data["facets"]]
-    eqs = [(tuple(h), Fraction(v)) for h, v in data["equations"]]
-    P = Polytope(sc, model.label, model.assumptions, fr, verts, eqs, facets, data["status"], data["stats"],
-                 data["notes"], fingerprint(model))
-    r = _build(theory_file, P, [], data.get("seconds", 0.0), data["classes"])
-    # a cheap exact consistency check of what was read: every facet holds on every vertex
-    Y, den = _coords_matrix(fr, verts)
-    vals = int_matmul([f.a for f in facets], Y, fr.dim)
-    for f, row in zip(facets, vals):
-        if any(v > f.b * den for v in row):
-            raise ValueError("cached facets do not hold on the cached vertices")
-    return r
+    entry = store.get(key)
+    if entry is None:
+        return None, ""
+    if not entry["hash_ok"]:
+        return None, "its content hash does not match"
+    if entry["fingerprint"] != fingerprint(model):
+        return None, "it was derived from another model"
+    t0 = time.perf_counter()
+    P, why = reverify(entry["payload"], model, gens)
+    if P is None:
+        return None, why
+    r = _build(theory_file, P, gens, time.perf_counter() - t0)
+    r.from_cache, r.reverified, r.cache_file = True, True, str(store.path)
+    return r, ""
 
 
 # ---------------------------------------------------------------------------
@@ -395,7 +398,7 @@ def _from_cache(data: dict, model, theory_file: str) -> FacetResult:
 # ---------------------------------------------------------------------------
 def facets(theory: Theory, bundle, *, frame: str = "auto", cache: bool | str | Path = True,
            time_limit: float | None = None, workers: int | None = None, progress: Progress | None = None,
-           seed: int = 1, max_columns: int = 200_000) -> FacetResult:
+           seed: int = 1, max_columns: int = 200_000, route: str = "auto") -> FacetResult:
     """Every facet of the set of behaviours that *bundle* allows, in classes.
 
     Parameters
@@ -407,6 +410,8 @@ def facets(theory: Theory, bundle, *, frame: str = "auto", cache: bool | str | P
     time_limit : seconds; a result that ran out is marked ``status == "partial"``.
     workers : processes for the oracle (through :func:`nogo.fanout.fan_out`).
     progress : callback ``(stage, done, total)``.
+    route : "auto" (facets up to symmetry when some relabelling is a verified symmetry of the
+        model, :func:`nogo.polytope.derive_symmetric`; else the plain hull), "plain" or "symmetric".
 
     Returns
     -------
@@ -424,30 +429,44 @@ def facets(theory: Theory, bundle, *, frame: str = "auto", cache: bool | str | P
     model = compile_bundle(theory, bundle, max_columns=max_columns)
     gens = bundle_generators(theory, bundle)
     theory_file = str(theory.file or "")
-    path = None
+    store = key = None
+    warnings: list[str] = []
     if cache:
-        folder = cache_dir() if cache is True else Path(cache)
-        path = folder / f"{_cache_key(model, frame, gens)}.json"
-        if path.exists():
-            try:
-                data = json.loads(path.read_text())
-                r = _from_cache(data, model, theory_file)
-                r.from_cache, r.cache_file = True, str(path)
-                return r
-            except (ValueError, KeyError, TypeError):
-                pass  # an unreadable cache entry is recomputed
-    P = derive_polytope(model, frame, moves=[g.move for g in gens], seed=seed, time_limit=time_limit,
-                        workers=workers, progress=progress)
+        from .store import Store
+
+        store = Store(cache_dir() if cache is True else Path(cache))
+        key = _cache_key(model, frame, gens, route)
+        r, why = _load(store, key, model, gens, theory_file)
+        warnings += store.warnings
+        if r is not None:
+            r.warnings = warnings
+            r.seconds = time.perf_counter() - t0
+            return r
+        if why:
+            warnings.append(f"warning: the stored result failed re-verification ({why}); derived afresh")
+    if route == "plain":
+        P = derive_polytope(model, frame, moves=[g.move for g in gens], seed=seed, time_limit=time_limit,
+                            workers=workers, progress=progress)
+    else:
+        pieces = None
+        if store is not None:
+            from .store import RunPieces
+
+            pieces = RunPieces(store, key)
+        P = derive_symmetric(model, frame, generators=gens, seed=seed, time_limit=time_limit, workers=workers,
+                             progress=progress, store=pieces, force=(route == "symmetric"))
     if progress:
         progress("classes", 0, None)
     r = _build(theory_file, P, gens, 0.0)
     r.seconds = time.perf_counter() - t0
-    if path is not None and P.status == "complete":
-        path.parent.mkdir(parents=True, exist_ok=True)
-        tmp = path.with_suffix(".tmp")
-        tmp.write_text(json.dumps(_to_cache(r)))
-        tmp.replace(path)
-        r.cache_file = str(path)
+    if store is not None and P.status == "complete":
+        from .polytope.certify import to_payload
+
+        if store.put(key, P.fingerprint, "facets", to_payload(P)):
+            r.cache_file = str(store.path)
+        store.drop_run(key)  # the pieces of the run are no longer needed
+        warnings += [w for w in store.warnings if w not in warnings]
+    r.warnings = warnings
     return r
 
 
@@ -635,6 +654,10 @@ def to_dict(r: FacetResult, with_vertices: bool = True) -> dict[str, Any]:
         "notes": P.notes,
         "seconds": round(r.seconds, 3),
         "from cache": r.from_cache,
+        "re-verified from the store": r.reverified,
+        "route": "classes" if P.classes is not None else "plain hull",
+        "group order": r.group_order,
+        "warnings": list(r.warnings),
     }
     if with_vertices:
         out["vertices"] = [{"coordinates": [q(y) for y in P.frame.coords_of(v)],

@@ -23,8 +23,15 @@ Move = Callable[[Coord], Coord]
 
 @dataclass(frozen=True)
 class Generator:
+    """One relabelling move, with what it does in words of the scenario (used to lift it to a model)."""
+
     label: str
     move: Move
+    kind: str = ""  # "outcomes" | "settings" | "parties"
+    party: int = -1  # the party it acts on (the first of two for "parties")
+    other: int = -1  # the second party of a swap
+    setting: str = ""  # for "outcomes": the setting at which the outcomes are relabelled
+    mapping: tuple[tuple[str, str], ...] = ()  # outcome or setting map as pairs
 
 
 def generators(scenario: Scenario, pinned_settings: Iterable[tuple[str, str]] = (),
@@ -43,7 +50,8 @@ def generators(scenario: Scenario, pinned_settings: Iterable[tuple[str, str]] = 
                     if s[i] != x:
                         return c
                     return s, a[:i] + (mapping[a[i]],) + a[i + 1:]
-                gens.append(Generator(f"relabel outcomes of {p.name} at setting {x}", mv))
+                gens.append(Generator(f"relabel outcomes of {p.name} at setting {x}", mv, "outcomes", i, -1, x,
+                                      tuple(mapping.items())))
         free = [x for x in p.settings if (p.name, x) not in pinned]
         for perm in _transpositions_and_cycle(len(free)):
             mapping = {free[k]: free[perm[k]] for k in range(len(perm))}
@@ -51,7 +59,8 @@ def generators(scenario: Scenario, pinned_settings: Iterable[tuple[str, str]] = 
             def mv(c, i=i, mapping=mapping):
                 s, a = c
                 return s[:i] + (mapping.get(s[i], s[i]),) + s[i + 1:], a
-            gens.append(Generator(f"permute settings of {p.name}", mv))
+            gens.append(Generator(f"permute settings of {p.name}", mv, "settings", i, -1, "",
+                                  tuple(mapping.items())))
     if swap_parties:
         for i, j in itertools.combinations(range(len(names)), 2):
             pi, pj = scenario.parties[i], scenario.parties[j]
@@ -66,7 +75,7 @@ def generators(scenario: Scenario, pinned_settings: Iterable[tuple[str, str]] = 
                 s2[i], s2[j] = s[j], s[i]
                 a2[i], a2[j] = a[j], a[i]
                 return tuple(s2), tuple(a2)
-            gens.append(Generator(f"swap parties {pi.name} and {pj.name}", mv))
+            gens.append(Generator(f"swap parties {pi.name} and {pj.name}", mv, "parties", i, j))
     return gens
 
 
@@ -152,3 +161,215 @@ def permutation(scenario: Scenario, move: Move) -> list[int]:
     if sorted(perm) != list(range(len(coords))):
         raise ValueError("a relabelling move is not a permutation of the coordinates")
     return perm
+
+
+# -- lifting a move to the compiled model --------------------------------------
+def _event_maps(scenario: Scenario, gen: Generator, inner_too: bool):
+    """(rename events, map a value of an event given the column's settings) for one generator."""
+    names = scenario.party_names
+    if gen.kind == "outcomes":
+        pname, x, m = names[gen.party], gen.setting, dict(gen.mapping)
+        inner = {o.name for o in scenario.inner if o.lab == pname and o.read_out_at == x} if inner_too else set()
+
+        def value(ev, v, settings):
+            if ev == pname:
+                return m.get(v, v) if settings is not None and settings[gen.party] == x else v
+            if ev == f"{pname}@{x}" or ev in inner:
+                return m.get(v, v)
+            return v
+        return (lambda ev: ev), value, (lambda s: s)
+    if gen.kind == "settings":
+        pname, m = names[gen.party], dict(gen.mapping)
+
+        def rename(ev):
+            if ev.startswith(pname + "@") and ev[len(pname) + 1:] in m:
+                return f"{pname}@{m[ev[len(pname) + 1:]]}"
+            return ev
+
+        def settings_of(s):
+            return None if s is None else s[:gen.party] + (m.get(s[gen.party], s[gen.party]),) + s[gen.party + 1:]
+        return rename, (lambda ev, v, s: v), settings_of
+    if gen.kind == "parties":
+        i, j = gen.party, gen.other
+        pi, pj = names[i], names[j]
+        ins_i = [o.name for o in scenario.inner if o.lab == pi]
+        ins_j = [o.name for o in scenario.inner if o.lab == pj]
+        if len(ins_i) != len(ins_j):
+            return None
+        swap = {pi: pj, pj: pi, **dict(zip(ins_i, ins_j)), **dict(zip(ins_j, ins_i))}
+
+        def rename(ev):
+            base, at, x = ev.partition("@")
+            return swap.get(base, base) + at + x
+
+        def settings_of(s):
+            if s is None:
+                return None
+            s2 = list(s)
+            s2[i], s2[j] = s[j], s[i]
+            return tuple(s2)
+        return rename, (lambda ev, v, s: v), settings_of
+    return None
+
+
+def lift_to_model(model, gen: Generator) -> list[int] | None:
+    """A permutation of the model's columns that realises *gen* and leaves the model unchanged, or None.
+
+    The move is lifted by its meaning: outcomes of a party at a setting are
+    relabelled in the party's event at that setting, in its counterfactual
+    outcome at that setting and (first try) in the inner observers read out
+    there; settings are permuted in the settings and the counterfactual
+    events; parties are exchanged with their inner observers.  The lift is
+    then checked exactly: it must be a bijection of the columns, carry the
+    observation map along the coordinate permutation, and map the set of
+    rows (each scaled to a leading 1) with their right-hand sides onto
+    itself.  When all three hold, the move maps the model polytope onto
+    itself, hence the set of behaviours onto itself: every image of a
+    certified point is a certified point and every image of a facet with a
+    Farkas certificate has one (the permuted multipliers).
+    """
+    if getattr(model, "kind", "linear") != "linear" or any(c.label for c in model.columns):
+        return None
+    sc = model.scenario
+    perm_obs = permutation(sc, gen.move)
+    index = {(c.settings, tuple(sorted(zip(c.events, c.values)))): j for j, c in enumerate(model.columns)}
+    for inner_too in (True, False):
+        maps = _event_maps(sc, gen, inner_too)
+        if maps is None:
+            return None
+        rename, value, settings_of = maps
+        sigma = []
+        for c in model.columns:
+            s2 = settings_of(c.settings)
+            key = (s2, tuple(sorted((rename(e), value(e, v, c.settings)) for e, v in zip(c.events, c.values))))
+            j = index.get(key)
+            if j is None:
+                break
+            sigma.append(j)
+        if len(sigma) != len(model.columns) or len(set(sigma)) != len(sigma):
+            continue
+        if _model_invariant(model, sigma, perm_obs):
+            return sigma
+        if not sc.inner:
+            break
+    return None
+
+
+def _row_ints(model):
+    """Each row with its right-hand side as primitive integers: (columns, values, rhs); cached on the model."""
+    import math
+
+    import numpy as np
+
+    got = model.extra.get("_row_ints")
+    if got is not None:
+        return got
+    out = []
+    for row, rhs in zip(model.rows, model.rhs):
+        items = sorted((j, Fraction(v)) for j, v in row.items() if v)
+        vals = [v for _, v in items] + [Fraction(rhs)]
+        L = 1
+        for v in vals:
+            L = L * v.denominator // math.gcd(L, v.denominator)
+        ints = [int(v * L) for v in vals]
+        g = 0
+        for v in ints:
+            g = math.gcd(g, abs(v))
+        g = g or 1
+        out.append((np.array([j for j, _ in items], dtype=np.int64), [v // g for v in ints[:-1]], ints[-1] // g))
+    model.extra["_row_ints"] = out
+    return out
+
+
+def _key(cols, vals, rhs) -> tuple:
+    """Rows as a set element: columns sorted, the sign fixed by the first coefficient."""
+    order = sorted(range(len(cols)), key=lambda t: cols[t])
+    sign = 1 if not vals or vals[order[0]] > 0 else -1
+    return (tuple(int(cols[t]) for t in order), tuple(sign * vals[t] for t in order), sign * rhs)
+
+
+def _model_invariant(model, sigma: list[int], perm_obs: list[int]) -> bool:
+    import numpy as np
+
+    for j, obs in enumerate(model.observe):
+        moved = {perm_obs[i]: w for i, w in obs.items() if w}
+        target = {i: w for i, w in model.observe[sigma[j]].items() if w}
+        if moved != target:
+            return False
+    rows = _row_ints(model)
+    base = model.extra.get("_row_keys")
+    if base is None:
+        base = model.extra["_row_keys"] = {_key(list(c), v, b) for c, v, b in rows}
+    sig = np.array(sigma, dtype=np.int64)
+    moved = {_key(list(sig[c]), v, b) for c, v, b in rows}
+    if moved == base:
+        return True
+    return _same_row_space(model, sigma)
+
+
+def _same_row_space(model, sigma: list[int]) -> bool:
+    """Exact: the permuted equations have the same solution set as the original ones.
+
+    With a solution q0 of rows·q = rhs and an integer basis N of the null space
+    of the rows (both computed once per model, python-flint), the solution set
+    is mapped onto itself exactly when rows·(σ q0) = rhs and rows·(σ N) = 0,
+    checked with integer sparse products.
+    """
+    import numpy as np
+    import scipy.sparse as sp
+
+    rows = _row_ints(model)
+    n = len(model.columns)
+    cached = model.extra.get("_null_space")
+    if cached is None:
+        import flint
+
+        A = flint.fmpz_mat([[0] * n for _ in rows]) if rows else flint.fmpz_mat(0, n)
+        for i, (c, v, _) in enumerate(rows):
+            for j, x in zip(c, v):
+                A[i, int(j)] = x
+        X, nullity = A.nullspace()
+        N = np.array([[int(X[i, j]) for j in range(nullity)] for i in range(n)], dtype=object)
+        Ab = flint.fmpq_mat(len(rows), n + 1)
+        for i, (c, v, b) in enumerate(rows):
+            for j, x in zip(c, v):
+                Ab[i, int(j)] = x
+            Ab[i, n] = b
+        R, rank = Ab.rref()
+        q0 = [flint.fmpq(0)] * n
+        for i in range(rank):
+            piv = next(j for j in range(n + 1) if R[i, j] != 0)
+            if piv == n:
+                return False  # no solution: nothing to preserve
+            q0[piv] = R[i, n] / R[i, piv]
+        den = 1
+        for v in q0:
+            den = den * int(v.q) // np.gcd(den, int(v.q))
+        Q0 = np.array([int(v.p) * (den // int(v.q)) for v in q0], dtype=object)
+        ri = [i for i, (c, _, _) in enumerate(rows) for _ in c]
+        ci = [int(j) for c, _, _ in rows for j in c]
+        vi = [x for _, v, _ in rows for x in v]
+        B = np.array([b for _, _, b in rows], dtype=object)
+        amax = max((abs(x) for x in vi), default=0)
+        width = max((len(c) for c, _, _ in rows), default=0)
+        big = max([abs(int(x)) for x in N.flat] + [abs(int(x)) for x in Q0] + [abs(int(x)) * den for x in B] + [0])
+        if amax < 2**31 and amax * big * max(width, 1) < 2**62:
+            Asp = sp.csr_matrix((np.array(vi, dtype=np.int64), (ri, ci)), shape=(len(rows), n))
+            N, Q0, B = N.astype(np.int64), Q0.astype(np.int64), B.astype(np.int64)
+        else:
+            Asp = None
+        cached = model.extra["_null_space"] = (Asp, N, Q0, den, B)
+    Asp, N, Q0, den, B = cached
+    inv = np.argsort(np.array(sigma))
+    # (σ x)[sigma[j]] = x[j], i.e. σ x = x[inv]
+    if Asp is None:  # large numbers: Python integers, row by row
+        for (c, v, b), i in zip(rows, range(len(rows))):
+            if sum(x * int(Q0[inv[j]]) for j, x in zip(c, v)) != b * den:
+                return False
+            for t in range(N.shape[1]):
+                if sum(x * int(N[inv[j], t]) for j, x in zip(c, v)) != 0:
+                    return False
+        return True
+    if np.any(Asp @ Q0[inv] != B * den):
+        return False
+    return not N.size or not np.any((Asp @ N[inv, :]) != 0)

@@ -4,9 +4,8 @@ from __future__ import annotations
 
 import sys
 
-from ..facets import compare_results, comparison_to_dict, facets
 from ._common import add_output, emit_json, theory_of
-from .facets import _Bars, _options, add_derive_options
+from .facets import _Bars, _options, add_derive_options, engine_of
 
 
 def register(sub) -> None:
@@ -25,9 +24,11 @@ def register(sub) -> None:
 
 
 def run(args) -> int:
+    from ..facets import compare_results, comparison_to_dict, facets
+
     theory = theory_of(args)
     opts = _options(args)
-    with _Bars(args.json) as bars:
+    with engine_of(args), _Bars(args.json) as bars:
         r1 = facets(theory, args.bundle1, progress=bars, **opts)
         r2 = facets(theory, args.bundle2, progress=bars, **opts)
     c = compare_results(r1, r2)

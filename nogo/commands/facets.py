@@ -3,9 +3,9 @@
 from __future__ import annotations
 
 import sys
+import time
 from pathlib import Path
 
-from ..facets import export, facets, to_dict
 from ._common import add_output, add_theory, emit_json, theory_of
 
 FRAMES = ("auto", "collins-gisin", "correlators", "probabilities")
@@ -19,9 +19,19 @@ def add_derive_options(p) -> None:
     p.add_argument("--time-limit", type=float, default=None, metavar="SECONDS",
                    help="stop after this many seconds with a clearly marked partial result")
     p.add_argument("--workers", type=int, default=None, help="processes for the LP oracle (default: one)")
+    p.add_argument("--local-cluster", type=int, default=None, metavar="N",
+                   help="run the independent work (class pieces, oracle batches) on a Dask cluster of N worker "
+                        "processes started on this machine for the run")
+    p.add_argument("--scheduler", default=None, metavar="ADDRESS",
+                   help="run the independent work on an existing Dask cluster, e.g. tcp://host:8786")
+    p.add_argument("--route", choices=("auto", "symmetric", "plain"), default="auto",
+                   help="auto (default): facets class by class under the verified symmetries of the model, "
+                        "else one plain hull; plain: always one hull of all vertices (the cross-check)")
     p.add_argument("--no-cache", action="store_true", help="derive afresh and do not store the result")
     p.add_argument("--cache-dir", default=None,
-                   help="folder of stored results (default $NOGO_CACHE, else ./.nogo-cache)")
+                   help="folder of the result store (default $NOGO_CACHE, else ./.nogo-cache); a stored "
+                        "result is re-verified with exact checks before it is used, and an interrupted "
+                        "run resumes from the classes it had closed")
     p.add_argument("--max-columns", type=int, default=200_000,
                    help="refuse hidden-variable models larger than this (default 200000)")
 
@@ -44,15 +54,19 @@ def register(sub) -> None:
 
 
 class _Bars:
-    """Progress bars on standard error (rich), silent when it is not a terminal."""
+    """Progress on standard error: rich bars on a terminal, a plain line every few seconds otherwise."""
 
-    def __init__(self, quiet: bool):
-        self.quiet = quiet or not sys.stderr.isatty()
+    def __init__(self, quiet: bool, every: float = 10.0):
+        self.quiet = quiet
+        self.tty = sys.stderr.isatty()
         self.progress = None
         self.tasks: dict[str, int] = {}
+        self.every = every
+        self.last = 0.0
+        self.t0 = time.perf_counter()
 
     def __enter__(self):
-        if not self.quiet:
+        if not self.quiet and self.tty:
             from rich.console import Console
             from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
 
@@ -66,7 +80,14 @@ class _Bars:
             self.progress.__exit__(*exc)
 
     def __call__(self, stage: str, done: int, total: int | None) -> None:
+        if self.quiet:
+            return
         if self.progress is None:
+            now = time.perf_counter()
+            if now - self.last >= self.every:
+                self.last = now
+                of = f" of {total}" if total else ""
+                print(f"nogo: {now - self.t0:6.0f} s  {stage}: {done}{of}", file=sys.stderr, flush=True)
             return
         if stage == "hull":
             from ..polytope import hull_estimate
@@ -79,16 +100,28 @@ class _Bars:
         self.progress.update(self.tasks[stage], completed=done, total=total)
 
 
+def engine_of(args):
+    """The fan-out engine the options ask for (serial by default)."""
+    from ..fanout import engine
+
+    return engine(scheduler=getattr(args, "scheduler", None), local_workers=getattr(args, "local_cluster", None))
+
+
 def _options(args) -> dict:
     cache = False if args.no_cache else (Path(args.cache_dir) if args.cache_dir else True)
     return dict(frame=args.coordinates, cache=cache, time_limit=args.time_limit, workers=args.workers,
-                max_columns=args.max_columns)
+                max_columns=args.max_columns, route=args.route)
 
 
 def run(args) -> int:
+    from ..atomic import write_text
+    from ..facets import export, facets, to_dict
+
     theory = theory_of(args)
-    with _Bars(args.json or args.format != "text") as bars:
+    with engine_of(args), _Bars(args.json or args.format != "text") as bars:
         r = facets(theory, args.bundle, progress=bars, **_options(args))
+    for w in r.warnings:
+        print(f"nogo: {w}", file=sys.stderr)
     code = 0 if r.status == "complete" else 1
     if args.json:
         emit_json(to_dict(r, with_vertices=args.vertices))
@@ -96,8 +129,7 @@ def run(args) -> int:
     if args.format != "text":
         text = export(r, args.format, "vertices" if args.vertices else "facets")
         if args.out:
-            from ..atomic import write_text  # noqa: PLC0415 - atomic: the old file survives a failed write
-            write_text(args.out, text)
+            write_text(Path(args.out), text)
             print(f"wrote {args.out}")
         else:
             sys.stdout.write(text)
@@ -113,9 +145,14 @@ def run(args) -> int:
         for i in range(len(r.vertices)):
             print(f"  {i + 1}: {r.vertex_text(i) or 'all coordinates 0'}")
     st = r.polytope.stats
-    where = f"read from {r.cache_file}" if r.from_cache else f"{r.seconds:.2f} s, {st.get('oracle_calls', 0)} LP calls"
-    print(f"symmetries used: {len(r.symmetries)} moves" +
+    where = (f"read from {r.cache_file} and re-verified now with the exact checks, {r.seconds:.2f} s"
+             if r.from_cache else f"{r.seconds:.2f} s, {st.get('oracle_calls', 0)} LP calls")
+    order = f"; group of order {r.group_order} acting on the set" if r.group_order else ""
+    print(f"symmetries used: {len(r.symmetries)} moves{order}" +
           (f"; not symmetries of this set: {', '.join(r.dropped_symmetries)}" if r.dropped_symmetries else ""))
+    if r.polytope.classes is not None:
+        print("route: facets class by class (adjacency decomposition); each class representative has its own "
+              "Farkas certificate, the other members follow by relabellings verified on the model")
     for n in r.polytope.notes:
         print(f"note: {n}")
     if r.status == "complete":

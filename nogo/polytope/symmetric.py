@@ -1,0 +1,246 @@
+"""The symmetric route: facets of a bundle's set up to its symmetry group, with exact evidence.
+
+1. Points, affine hull and coordinates as in the plain route (:mod:`.derive`).
+2. Each relabelling of the scenario is *lifted* to the compiled model and
+   the lift is checked exactly (:func:`nogo.symmetry.lift_to_model`): the
+   moves that pass are symmetries of the model polytope, hence of the set of
+   behaviours.  The certified points are closed under them for free.
+3. The group they generate is enumerated on the points (its order is
+   reported) and the facets of the points' hull are found one class at a
+   time by the adjacency decomposition (:mod:`.adjacency`; Christof &
+   Reinelt 2001; Bremner, Dutour Sikirić, Schürmann, arXiv:math/0702239).
+4. Each class representative is asked of the LP oracle: a Farkas
+   certificate from the model shows it valid; otherwise the oracle gives a
+   point beyond it, which is added with its orbit, and step 3 is repeated.
+   A member g·F of a class is valid because F is and g is a verified
+   symmetry of the model (the permuted multipliers certify g·F).
+5. Exact checks: every class is expanded by the group's integer action on
+   inequalities and its size must equal the orbit size counted on the
+   incidence sets; every facet holds on every point; every representative
+   is tight on points of affine rank dim - 1.
+"""
+
+from __future__ import annotations
+
+import time
+from fractions import Fraction
+
+import numpy as np
+
+from ..model import LinearModel
+from .adjacency import Decomposition, OutOfTime, orbit_rows
+from .derive import _perm_of, _Run, derive_polytope
+from .group import enumerate_group
+from .hull import _coords_matrix, int_matmul
+from .ints import PolytopeError, Progress, _zmat, primitive
+from .result import HullFacet, Polytope
+
+
+_MANY = 12  # points per dimension above which the plain hull is used
+
+
+def derive_symmetric(model: LinearModel, frame: str = "auto", *, generators: list | None = None, seed: int = 1,
+                     time_limit: float | None = None, workers: int | None = None,
+                     progress: Progress | None = None, chunk: int = 64, store=None,
+                     force: bool = False) -> Polytope:
+    """The exact facets of the model's set of behaviours, class by class (see the module docstring).
+
+    ``generators``: :class:`nogo.symmetry.Generator` moves (e.g. from
+    :func:`nogo.symmetry.bundle_generators`).  When none of them lifts to a
+    verified symmetry of the model, the plain route runs instead.
+    ``force``: decompose even when there are many points per dimension.
+    ``store``: an optional :class:`nogo.store.RunPieces` where each closed
+    class is written as it is found and from which an interrupted run resumes.
+
+    Example
+    -------
+    >>> from nogo.theory import load_theory; from nogo.compile import compile_bundle
+    >>> from nogo.symmetry import bundle_generators
+    >>> th = load_theory("theories/bell-2x2.yaml")
+    >>> P = derive_symmetric(compile_bundle(th, "Bell-local"), generators=bundle_generators(th, "Bell-local"))
+    >>> len(P.facets), len(P.classes), P.stats["group order"]
+    (24, 2, 64)
+    """
+    from ..symmetry import lift_to_model
+
+    gens = list(generators or [])
+    lifted, unlifted = [], []
+    for g in gens:
+        (lifted if lift_to_model(model, g) is not None else unlifted).append(g)
+    if not lifted:
+        P = derive_polytope(model, frame, moves=[g.move for g in gens], seed=seed, time_limit=time_limit,
+                            workers=workers, progress=progress, chunk=chunk)
+        P.notes.append("no relabelling is a verified symmetry of this model: the plain hull was used")
+        return P
+    run = _Run(model, seed, time_limit, workers, progress, chunk)
+    run.discover(frame)
+    sc = model.scenario
+    run.perms = [_perm_of(sc, g.move) for g in lifted]
+    run.lifted = True
+    run.close_under(run.perms, lifted=True)
+    run.stats["times"]["vertices"] = time.perf_counter() - run.t_vertices
+    k = run.fr.dim
+    if len(run.points) > _MANY * k and not force:
+        # many vertices and (usually) few facets, as for no-signalling sets: one hull is the cheaper route
+        run.notes.append(f"{len(run.points)} points in dimension {k}: the plain hull was used "
+                         "(the decomposition pays per facet class and face, the hull per vertex)")
+        return run.plain_hull()
+    if unlifted:
+        run.notes.append("relabellings that are not symmetries of this model (exact check): "
+                         + ", ".join(g.label for g in unlifted))
+    return _classes(run, lifted, store)
+
+
+def _classes(run: _Run, lifted: list, store) -> Polytope:
+    fr, k = run.fr, run.fr.dim
+    stats, notes = run.stats, run.notes
+    stats["route"] = "symmetric"
+    t_dec = t_check = 0.0
+    status = "complete"
+    verified: dict[tuple, object] = {}
+    while True:
+        points = list(run.points)
+        Y, den = _coords_matrix(fr, points)
+        Y = Y.astype(np.int64) if int(np.max(np.abs(Y))) < 2**40 else Y
+        group, refused = enumerate_group(points, fr, [(g.label, p) for g, p in zip(lifted, run.perms)])
+        if refused:
+            raise PolytopeError("a verified symmetry of the model does not map the certified points onto themselves")
+        stats["group order"] = group.order
+        t0 = time.perf_counter()
+        dec = Decomposition(Y, group.perms, deadline=run.deadline, seed=int(run.rng.integers(1 << 30)),
+                            progress=run.report)
+        resumed = store.load(len(points)) if store is not None else None
+        if store is not None:
+            dec.on_class = lambda F, reps: store.save(len(points), _frame_form(F, den), F.orbit, sorted(
+                (_frame_form(r, den), r.orbit) for r in reps.values()))
+        try:
+            if resumed:
+                stats["classes resumed"] = len(resumed["closed"])
+                reps = dec.run(start=[_int_form(ab, den) for ab, _ in resumed["known"]],
+                               done_keys={dec.canonical(_incidence(Y, _int_form(ab, den)))[0]
+                                          for ab in resumed["closed"]})
+            else:
+                reps = dec.run()
+        except OutOfTime:
+            reps = list(getattr(dec, "reps", {}).values())
+            status = "partial"
+        t_dec += time.perf_counter() - t0
+        stats["hull_rounds"] += 1
+        for key in ("ridge hulls", "recursive faces", "wraps"):
+            stats[key] = stats.get(key, 0) + dec.stats[key]
+        forms = [_frame_form(r, den) for r in reps]
+        if status == "partial":
+            break
+        t0 = time.perf_counter()
+        todo = [ab for ab in forms if ab not in verified]
+        qs = [(tuple(fr.full(a)), Fraction(b), (run.rng.normal(size=k) * 1e-4) @ run.G) for a, b in todo]
+        new = []
+        answers = run.ask("max", qs) if not run.out_of_time() else None
+        t_check += time.perf_counter() - t0
+        if answers is None:
+            status = "partial"
+            break
+        for ab, ans in zip(todo, answers):
+            if ans.valid:
+                verified[ab] = ans
+            else:
+                new.append(ans.point)
+        run.report("classes checked", len(verified), len(forms))
+        if not run.add(new):
+            if new:
+                raise PolytopeError("the oracle returned a point beyond a facet that the hull already holds")
+            break
+        run.close_under(run.perms, lifted=True)
+    stats["times"]["classes"] = t_dec
+    stats["times"]["class checks"] = t_check
+    stats["classes"] = len(reps)
+    return _expand(run, points, Y, den, reps, forms, group, verified, status)
+
+
+def _frame_form(r, den: int) -> tuple[tuple[int, ...], int]:
+    ints = primitive([int(v) * den for v in r.a] + [int(r.b)])
+    return tuple(ints[:-1]), ints[-1]
+
+
+def _int_form(ab, den: int) -> tuple[tuple[int, ...], int]:
+    a, b = ab
+    return tuple(int(v) for v in a), int(b) * den
+
+
+def _incidence(Y, ab) -> np.ndarray:
+    a, b = ab
+    return (Y @ np.array(a, dtype=np.int64)) == b
+
+
+def _expand(run: _Run, points, Y, den, reps, forms, group, verified, status) -> Polytope:
+    """Every facet from its class representative; the exact checks of step 5."""
+    t0 = time.perf_counter()
+    fr, k = run.fr, run.fr.dim
+    facets: list[HullFacet] = []
+    classes: list[tuple[int, list[int]]] = []
+    for r, (a, b) in zip(reps, forms):
+        rows = orbit_rows(a, b, group.mats)
+        if status == "complete" and len(rows) != r.orbit:
+            raise PolytopeError(f"a class expands to {len(rows)} inequalities but its orbit has {r.orbit} facets")
+        ans = verified.get((a, b))
+        start = len(facets)
+        rep_at = start
+        for row in rows:
+            ar, br = tuple(int(v) for v in row[:-1]), int(row[-1])
+            if (ar, br) == (a, b):
+                rep_at = len(facets)
+            is_rep = (ar, br) == (a, b)
+            facets.append(HullFacet(ar, br, True if ans else None, 0, Fraction(br) if ans else None,
+                                    (ans.method if is_rep else "image of the class representative's certificate "
+                                     "under a verified model symmetry") if ans else "",
+                                    ans.certificate if (ans and is_rep) else None))
+        classes.append((rep_at, list(range(start, len(facets)))))
+    # exact: every facet holds on every point; representatives tight on dim - 1 independent points
+    if facets:
+        vals = int_matmul([f.a for f in facets], Y, k)
+        lim = np.array([f.b for f in facets], dtype=vals.dtype) * den
+        if np.any(vals > lim[:, None]):
+            raise PolytopeError("a facet of the symmetric route is violated by a certified point")
+        on_all = vals == lim[:, None]
+        for f, t in zip(facets, np.count_nonzero(on_all, axis=1)):
+            f.tight = int(t)
+        for rep_at, _ in classes:
+            on = np.flatnonzero(on_all[rep_at])
+            M = _zmat([[1] + [int(v) for v in Y[j]] for j in on], k + 1)
+            if M.rank() != k:
+                raise PolytopeError("a class representative is not tight on a facet's worth of points")
+    vertices = _vertices(points, Y, den, facets, group, status)
+    if len(vertices) < len(points):
+        run.notes.append(f"{len(points) - len(vertices)} certified points found on the way are not vertices")
+    if status == "partial":
+        run.notes.append("time limit reached: the classes listed are those found so far; the list is not complete")
+    st = run.stats
+    st["times"]["exact facet check"] = time.perf_counter() - t0
+    st["times"]["total"] = time.perf_counter() - run.t_start
+    st["points"] = len(points)
+    P = Polytope(run.sc, run.model.label, run.model.assumptions, fr, vertices, run.equations, facets, status,
+                 st, run.notes, run.fp)
+    P.classes = classes
+    P.group_order = group.order
+    P.group_generators = list(group.generators)
+    return P
+
+
+def _vertices(points, Y, den, facets, group, status):
+    """Points where the tight facets have rank dim (one check per orbit of points)."""
+    if status != "complete" or not facets:
+        return list(points)
+    k = Y.shape[1]
+    A = np.array([f.a for f in facets], dtype=np.int64)
+    b = np.array([f.b for f in facets], dtype=np.int64) * den
+    is_vertex = {}
+    orbit_of = np.min(group.perms, axis=0)  # the smallest image of each point: one label per orbit
+    keep = []
+    for j in range(len(points)):
+        o = int(orbit_of[j])
+        if o not in is_vertex:
+            on = np.flatnonzero(A @ Y[j].astype(np.int64) == b)
+            is_vertex[o] = len(on) >= k and _zmat([[int(v) for v in A[i]] for i in on], k).rank() == k
+        if is_vertex[o]:
+            keep.append(points[j])
+    return keep
