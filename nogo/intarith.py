@@ -187,7 +187,7 @@ class IntCSR:
         """Entries (r, c, v); repeated positions are summed and zeros dropped."""
         r = np.asarray(r, dtype=np.int64)
         c = np.asarray(c, dtype=np.int64)
-        v = np.asarray(v, dtype=np.int64)
+        v = as_int(v)  # int64, or Python ints where an entry does not fit
         m, n = int(shape[0]), int(shape[1])
         if len(r) > 1:
             dr = r[1:] - r[:-1]

@@ -98,16 +98,16 @@ def arrays_from_lists(rows, rhs, observe, n_col: int, n_coord: int) -> ModelArra
     """Integer arrays of a model given as dict rows (one pass over the entries)."""
     import numpy as np
 
-    from .intarith import IntCSR, lcm_all
+    from .intarith import IntCSR, as_int, lcm_all
 
     def csr(dict_rows, n):
-        dens = np.ones(len(dict_rows), dtype=np.int64)
+        dens: list[int] = []
         indptr = [0]
         idx: list[int] = []
         val: list[int] = []
-        for i, row in enumerate(dict_rows):
+        for row in dict_rows:
             d = lcm_all({Fraction(v).denominator for v in row.values()})
-            dens[i] = d
+            dens.append(d)
             for j, v in row.items():
                 v = Fraction(v)
                 if v:
@@ -115,13 +115,15 @@ def arrays_from_lists(rows, rhs, observe, n_col: int, n_coord: int) -> ModelArra
                     val.append(v.numerator * (d // v.denominator))
             indptr.append(len(idx))
         rid = np.repeat(np.arange(len(dict_rows), dtype=np.int64), np.diff(np.array(indptr, dtype=np.int64)))
-        M = IntCSR.from_coo(rid, np.array(idx, dtype=np.int64), np.array(val, dtype=np.int64), (len(dict_rows), n))
-        return M, dens
+        # entries beyond int64 (e.g. rows that pin a point with large denominators) stay Python ints
+        M = IntCSR.from_coo(rid, np.array(idx, dtype=np.int64), as_int(np.array(val, dtype=object)),
+                            (len(dict_rows), n))
+        return M, as_int(np.array(dens, dtype=object))
 
     A, row_den = csr(rows, n_col)
     fr = [Fraction(b) for b in rhs]
-    rhs_num = np.array([f.numerator for f in fr], dtype=np.int64)
-    rhs_den = np.array([f.denominator for f in fr], dtype=np.int64)
+    rhs_num = as_int(np.array([f.numerator for f in fr], dtype=object))
+    rhs_den = as_int(np.array([f.denominator for f in fr], dtype=object))
     O, oden = csr(observe, n_coord)
     common = lcm_all(set(oden.tolist()))
     if common != 1:

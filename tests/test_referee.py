@@ -240,14 +240,20 @@ def _first(doc, kind):
     return [c for c in doc["checks"] if c["type"] == kind][0]
 
 
-def _weaken_multiplier(check):
-    """Lower the multiplier of a normalisation row by 1/10: the bound proven would be below the true maximum."""
+def _weaken_multiplier(check, row):
+    """Lower the multiplier of normalisation row *row* by 1/10: the bound proven would be below the true maximum.
+
+    A tight vertex of the facet has weight in every settings tuple, so some column of that tuple meets
+    its cost with equality (complementary slackness); lowering the row's multiplier breaks it there.
+    """
     from fractions import Fraction
 
     mult = check["multipliers"]
     for pair in mult:
-        pair[1] = str(Fraction(pair[1]) - Fraction(1, 10))
-        return
+        if pair[0] == row:
+            pair[1] = str(Fraction(pair[1]) - Fraction(1, 10))
+            return
+    mult.append([row, "-1/10"])
 
 
 def _norm_row(doc, mid):
@@ -257,7 +263,8 @@ def _norm_row(doc, mid):
 
 def _tamper_multiplier(doc, kind):
     if kind == "facets":
-        _weaken_multiplier(_first(doc, "facets")["facets"][3])
+        c = _first(doc, "facets")
+        _weaken_multiplier(c["facets"][3], _norm_row(doc, c["model"]))
         return
     if kind == "exceeds":
         c = _first(doc, "exceeds")
