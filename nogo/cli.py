@@ -27,6 +27,20 @@ def _quiet_exit(signum=None, frame=None):  # pragma: no cover - exercised in a s
         os._exit(130)
 
 
+_interrupted = False
+
+
+def _raise_interrupt(signum=None, frame=None):  # pragma: no cover - exercised in a subprocess
+    """While a command runs: remember the interrupt, then raise it (so ``finally`` blocks run).
+
+    A C extension may swallow the KeyboardInterrupt and raise something else in its place
+    (numpy turns it into a TypeError inside a comparison); the flag keeps the cause known.
+    """
+    global _interrupted
+    _interrupted = True
+    raise KeyboardInterrupt
+
+
 def _set_sigint(handler) -> None:
     try:
         signal.signal(signal.SIGINT, handler)
@@ -101,7 +115,7 @@ def main(argv: list[str] | None = None) -> int:
             parser.print_help()
             return 2
         if program:
-            _set_sigint(signal.default_int_handler)
+            _set_sigint(_raise_interrupt)
         try:
             return int(args.run(args) or 0)
         finally:
@@ -128,6 +142,9 @@ def main(argv: list[str] | None = None) -> int:
               "(see the size options of the command)", file=sys.stderr)
         return 2
     except Exception as exc:  # noqa: BLE001 - a user sees one line, developers set NOGO_DEBUG
+        if _interrupted:  # the interrupt came through a library that replaced it with another error
+            print("nogo: interrupted", file=sys.stderr)
+            return 130
         if os.environ.get("NOGO_DEBUG"):
             raise
         print(f"nogo: internal error: {type(exc).__name__}: {exc} (set NOGO_DEBUG=1 for details)", file=sys.stderr)

@@ -79,6 +79,9 @@ class HullOutOfTime(Exception):
 
 
 def _hull_child(conn, fn, args) -> None:
+    import signal
+
+    signal.signal(signal.SIGINT, signal.SIG_IGN)  # Ctrl-C is the parent's to handle; it stops this child
     try:
         conn.send(("ok", fn(*args)))
     except BaseException as err:  # reported to the parent, which raises it
