@@ -31,6 +31,7 @@ from fractions import Fraction
 from .errors import InputError, Where
 from .model import Column, LinearModel, RowSource
 from .scenario import EventVar, Scenario
+from .supports import refuse_support_only
 from .theory import (Absolute, Assumption, Counterfactual, Factorise, Hidden, Independent,
                      Predetermined, Theory)
 
@@ -130,6 +131,7 @@ def compile_linear(theory: Theory, spec: str | list[str]) -> LinearModel:
                                 Where(theory.file, a.line, f"assumptions.{a.name}"))
     events = present_events(sc, assumptions)
     names = [e.name for e in events]
+    support_notes = refuse_support_only(theory, assumptions, names)  # possibilistic clauses: implied or refused
     settings = sc.setting_tuples()
     coords = {c: i for i, c in enumerate(sc.coordinates())}
     n_party = len(sc.parties)
@@ -148,7 +150,7 @@ def compile_linear(theory: Theory, spec: str | list[str]) -> LinearModel:
     rows: list[dict[int, Fraction]] = []
     rhs: list[Fraction] = []
     sources: list[RowSource] = []
-    notes: list[str] = []
+    notes: list[str] = list(support_notes)
     for o in sc.inner:
         if o.name in names and o.read_out_at is not None:
             notes.append(f"read-out: {o.lab}'s outcome equals {o.name}'s when {o.lab}'s setting is {o.read_out_at}")
