@@ -1,6 +1,6 @@
 """Support-only (possibilistic) independence in the probabilistic compilers.
 
-A clause ``independent: {events: E, of: S, on: supports}``
+A clause ``independent: {events: E, of: S, reading: supports}``
 (:class:`nogo.theory.SupportIndependent`) says only that *which* values of E
 are possible does not change with the settings S: possibilistic local agency
 in the sense of M. Haddara and E. G. Cavalcanti, arXiv:2205.12223.  The

@@ -234,12 +234,12 @@ def _parse_assumption(name: str, spec, amap: YMap, names: _Names) -> Assumption:
                 evs = names.event_list(item if isinstance(item, list) else [item], at(key), allow_hidden=False)
                 clauses.append(Absolute(evs))
             elif key == "independent":
-                m = _mapping(item, at(key), {"events", "of", "given", "on"}, f"{path}.independent")
+                m = _mapping(item, at(key), {"events", "of", "given", "reading"}, f"{path}.independent")
                 for req in ("events", "of"):
                     if req not in m:
                         raise InputError(f"'independent' needs '{req}'", at(key))
                 given = names.hidden_list(m["given"], m.where("given", f"{path}.independent.given")) if "given" in m else ()
-                kind = _independence_kind(m, given, m.where("on", f"{path}.independent.on"))
+                kind = _independence_kind(m, given, m.where("reading", f"{path}.independent.reading"))
                 clauses.append(kind(names.event_list(m["events"], m.where("events", f"{path}.independent.events")),
                                     names.settings_list(m["of"], m.where("of", f"{path}.independent.of")),
                                     given))
@@ -277,8 +277,8 @@ def _parse_assumption(name: str, spec, amap: YMap, names: _Names) -> Assumption:
 
 
 def _independence_kind(m, given, where: Where):
-    """``on: joint`` (default) or ``on: supports`` (possibilistic, without 'given')."""
-    on = str(m.get("on", "joint"))
+    """``reading: joint`` (default) or ``reading: supports`` (possibilistic, without 'given')."""
+    on = str(m.get("reading", "joint"))
     if on not in ("joint", "supports"):
         raise InputError(f"unknown reading '{on}'", where, suggest(on, ["joint", "supports"]))
     if on == "supports" and given:
