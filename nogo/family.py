@@ -10,6 +10,26 @@ labs pairwise space-like, inner observers before their lab's choice) and
 Bell's route (joint counterfactual outcomes + setting independence, A. Fine,
 PRL 48, 291 (1982)).
 
+Sequential friends (``sequence: k``): in every friend lab the friend
+measures k times in sequence; at setting j <= k the super-observer reads out
+the j-th record, at a larger setting it undoes every measurement and measures
+itself; the j-th record exists only in runs whose setting is >= j, and each
+stage's decision (read out now, or undo and instruct the next measurement) is
+free.  Local agency then says: the joint of the records made so far and of
+every event in the other labs does not depend on the decisions still to
+come.  This is *exactly* the scenario with k inner observers per lab, all
+present in every run and measuring before the lab's choice (records
+``A_f1..A_fk`` read out at settings 1..k, local agency generated for the
+default light cone): a model of the latter gives one of the former by
+forgetting the records that do not exist; conversely a sequential model is
+extended, lab by lab, by drawing the missing records at setting j from their
+conditional at a setting > k given the earlier records and every event
+outside the lab (the stage-j independence makes the marginals agree, and
+the extension keeps every other lab's constraints, since its joint at
+setting j is the image of the joint at the largest setting).  That argument
+is ours (written out in DEVELOPERS.md); the sequential scenario itself is
+that of arXiv:2305.09102.
+
 Questions (each answer carries exact evidence):
 
 * ``lf-equals-bell`` — does the local-friendliness set equal the Bell-local
@@ -56,6 +76,7 @@ class Member:
     settings: tuple[int, ...]
     outcomes: int
     friends: tuple[bool, ...]
+    sequence: int = 1  # friend measurements per friend lab (sequential friend, read out at settings 1..sequence)
 
     @property
     def labs(self) -> int:
@@ -68,12 +89,23 @@ class Member:
     @property
     def key(self) -> str:
         fr = "".join(p for p, f in zip(self.parties, self.friends) if f) or "none"
-        return f"{self.labs}labs-s{'x'.join(map(str, self.settings))}-o{self.outcomes}-friends-{fr}"
+        seq = f"-seq{self.sequence}" if self.sequence > 1 else ""
+        return f"{self.labs}labs-s{'x'.join(map(str, self.settings))}-o{self.outcomes}-friends-{fr}{seq}"
 
     def describe(self) -> str:
         fr = ", ".join(p for p, f in zip(self.parties, self.friends) if f) or "none"
+        seq = (f", each friend measuring {self.sequence} times in sequence (read out at settings 1..{self.sequence})"
+               if self.sequence > 1 else "")
         return (f"{self.labs} labs, settings {'/'.join(map(str, self.settings))}, {self.outcomes} outcomes, "
-                f"inner observers in {fr}")
+                f"inner observers in {fr}{seq}")
+
+    def records(self, party: str) -> list[tuple[str, int]]:
+        """The inner records of a lab with the setting each is read out at."""
+        if not self.friends[self.parties.index(party)]:
+            return []
+        if self.sequence == 1:
+            return [(f"{party}_in", 1)]
+        return [(f"{party}_f{j}", j) for j in range(1, self.sequence + 1)]
 
     def outcome_labels(self) -> list[str]:
         return ["+1", "-1"] if self.outcomes == 2 else [str(k) for k in range(self.outcomes)]
@@ -84,15 +116,16 @@ class Member:
         for p, m in zip(self.parties, self.settings):
             lines.append(f"    {p}: {{settings: [{', '.join(str(x + 1) for x in range(m))}], outcomes: [{outs}]}}")
         friends = [p for p, f in zip(self.parties, self.friends) if f]
+        records = [(p, r, x) for p in self.parties for r, x in self.records(p)]
         if friends:
             lines.append("  inner_observers:")
-            lines += [f"    {p}_in: {{lab: {p}, outcomes: [{outs}], read_out_at: 1}}" for p in friends]
+            lines += [f"    {r}: {{lab: {p}, outcomes: [{outs}], read_out_at: {x}}}" for p, r, x in records]
         lines += ["light_cone:", "  says: labs pairwise space-like; inner observers measure before their lab's choice",
                   "  name: agency", "assumptions:"]
         if friends:
             lines += ["  absoluteness:", "    says: the inner records have single values in every run",
                       "    source: K.-W. Bong et al., Nature Physics 16, 1199 (2020), arXiv:1907.05607",
-                      f"    absolute: [{', '.join(p + '_in' for p in friends)}]"]
+                      f"    absolute: [{', '.join(r for _, r, _ in records)}]"]
         lat = ", ".join(f'"{p}@*"' for p in self.parties)
         sets = ", ".join(f"{p}.setting" for p in self.parties)
         lines += ["  counterfactual:", "    says: an outcome exists for every setting of every party, jointly",
@@ -121,6 +154,7 @@ class Template:
     settings: tuple[str, ...] = ("2", "3")  # "3" = every lab; "3/2" = per lab (only for that many labs)
     outcomes: tuple[int, ...] = (2,)
     friends: tuple[str, ...] = ("all",)  # all | none | first | all-but-first | each (every subset, up to order)
+    sequence: tuple[int, ...] = (1,)  # friend measurements per friend lab (sequential friends)
 
     def members(self) -> list[Member]:
         out: list[Member] = []
@@ -143,9 +177,12 @@ class Template:
                     if o < 2:
                         raise InputError("a party needs at least two outcomes", Where("command line", key="outcomes"))
                     for fr in self._friend_patterns(n, ms):
-                        m = Member(ms, o, fr)
-                        if m not in out:
-                            out.append(m)
+                        for k in self.sequence:
+                            if k > 1 and (not any(fr) or k > min(m for m, f in zip(ms, fr) if f)):
+                                continue  # a sequence needs a friend and as many settings to read it out
+                            m = Member(ms, o, fr, k)
+                            if m not in out:
+                                out.append(m)
         return out
 
     def _friend_patterns(self, n: int, ms: tuple[int, ...]) -> list[tuple[bool, ...]]:
@@ -180,7 +217,8 @@ def template_from_yaml(path: str) -> Template:
     data = read_yaml_file(path)
     if not isinstance(data, dict):
         raise InputError("a family template is a mapping with labs, settings, outcomes, friends", Where(path, 1))
-    check_keys(data, {"labs", "settings", "outcomes", "friends", "says", "question", "bundle", "inequality"}, "")
+    check_keys(data, {"labs", "settings", "outcomes", "friends", "sequence", "says", "question", "bundle",
+                      "inequality"}, "")
 
     def lst(key, conv, default):
         raw = data.get(key, default)
@@ -191,7 +229,7 @@ def template_from_yaml(path: str) -> Template:
             raise InputError(f"'{key}' must list {'numbers' if conv is int else 'labels'}",
                              data.where(key, key)) from None
     return Template(lst("labs", int, [2]), lst("settings", str, ["2"]), lst("outcomes", int, [2]),
-                    lst("friends", str, ["all"]))
+                    lst("friends", str, ["all"]), lst("sequence", int, [1]))
 
 
 # ---------------------------------------------------------------------------
@@ -205,7 +243,7 @@ def estimate(m: Member) -> dict[str, Any]:
     dim = math.prod(s * (m.outcomes - 1) + 1 for s in m.settings) - 1
     bell_vertices = m.outcomes ** sum(m.settings)
     hull = hull_estimate(bell_vertices, dim)
-    lf_columns = math.prod(m.settings) * m.outcomes ** (m.labs + sum(m.friends))
+    lf_columns = math.prod(m.settings) * m.outcomes ** (m.labs + m.sequence * sum(m.friends))
     bell_columns = math.prod(m.settings) * m.outcomes ** (m.labs + sum(m.settings))
     in_reach = not hull.startswith("minutes") and bell_columns <= 200_000
     return {"coordinates": coords, "dimension": dim, "bell_vertices": bell_vertices, "hull": hull,

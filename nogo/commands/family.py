@@ -10,7 +10,8 @@ from ._common import add_output, emit_json
 
 PRESETS = {
     # every canonical two- and three-lab scenario the command tries by default (results/families/)
-    "canonical": dict(labs=(2, 3), settings=("2", "3", "3/2", "4/2", "2/2/3"), outcomes=(2,), friends=("each",)),
+    "canonical": dict(labs=(2, 3), settings=("2", "3", "3/2", "4/2", "2/2/3"), outcomes=(2,), friends=("each",),
+                      sequence=(1, 2)),
     "fixed-points": dict(labs=(2,), settings=("2", "3"), outcomes=(2,), friends=("all",)),
 }
 
@@ -31,6 +32,8 @@ def register(sub) -> None:
     p.add_argument("--outcomes", default=None, help="numbers of outcomes, e.g. 2")
     p.add_argument("--friends", default=None,
                    help="which labs hold an inner observer: all, none, first, all-but-first, each (every pattern)")
+    p.add_argument("--sequence", default=None,
+                   help="friend measurements per friend lab, e.g. 1,2 (a sequential friend read out at settings 1..k)")
     p.add_argument("--question", default="lf-equals-bell", choices=("lf-equals-bell", "facets", "implies"),
                    help="lf-equals-bell (default): does local friendliness equal the Bell-local set?; facets: how "
                         "many facets has --bundle?; implies: does --bundle imply --inequality?")
@@ -71,6 +74,8 @@ def _template(args):
         kw["outcomes"] = ints(args.outcomes, "--outcomes")
     if args.friends:
         kw["friends"] = tuple(args.friends.split(","))
+    if args.sequence:
+        kw["sequence"] = ints(args.sequence, "--sequence")
     from dataclasses import replace
     return replace(base, **kw)
 
