@@ -44,6 +44,10 @@ Questions (each answer carries exact evidence):
   exactly (:func:`nogo.facets.facets`) and compared
   (:func:`nogo.facets.compare_results`): equal / strictly larger, with facet
   counts.
+* ``lf-equals-pd`` — does local friendliness equal the partially
+  deterministic set (mixtures, over a setting-independent lam, of
+  no-signalling behaviours whose inner records, hence read-out outcomes, lam
+  fixes; arXiv:2510.25127)?  Both derived exactly and compared.
 * ``facets`` — the number of facets (and classes) of one bundle.
 * ``implies`` — does a bundle imply an inequality (catalog name or text)?
 
@@ -67,7 +71,7 @@ from typing import Any
 from .errors import InputError, Where
 from .fanout import fan_out
 
-QUESTIONS = ("lf-equals-bell", "facets", "implies")
+QUESTIONS = ("lf-equals-bell", "lf-equals-pd", "facets", "implies")
 PARTY_NAMES = "ABCDEFGH"
 LP_COLUMNS = 5000  # larger local-friendliness models: an exact decision takes minutes here (measured: 1728 columns, ~1 s)
 
@@ -137,7 +141,20 @@ class Member:
                   "  predetermined-local:", "    says: each outcome is a function of lam and its own lab's setting",
                   "    source: J. S. Bell, Physics 1, 195 (1964)", "    predetermined:"]
         lines += [f"      - {{events: [{p}], given: [lam], depends_on: [{p}.setting]}}" for p in self.parties]
-        lines += ["bundles:",
+        recs = [r for _, r, _ in records]
+        if recs:
+            lines += ["  records-fixed:", "    says: given lam, each inner record is fixed by lam and its own lab's setting",
+                      "    source: partially deterministic behaviours, arXiv:2510.25127", "    predetermined:"]
+            lines += [f"      - {{events: [{r}], given: [lam], depends_on: [{p}.setting]}}" for p, r, _ in records]
+            lines += ["  records-free:", "    says: given lam, the inner records depend on no setting",
+                      f"    independent: {{events: [{', '.join(recs)}], of: [{sets}], given: [lam]}}"]
+        lines += ["  no-signal-given-lam:", "    says: given lam, no lab's setting changes the other labs' outcomes",
+                  "    source: S. Popescu and D. Rohrlich, Found. Phys. 24, 379 (1994)", "    independent:"]
+        lines += [f"      - {{events: [{', '.join(q for q in self.parties if q != p)}], of: [{p}.setting], given: [lam]}}"
+                  for p in self.parties]
+        pd = (["absoluteness"] if friends else []) + ["hidden", "lam-free"] + \
+            (["records-fixed", "records-free"] if recs else []) + ["no-signal-given-lam"]
+        lines += ["bundles:", f"  partly-determined: [{', '.join(pd)}]",
                   f"  local-friendliness: [{', '.join((['absoluteness'] if friends else []) + [f'agency-{p}' for p in self.parties])}]",
                   "  Bell-local: [hidden, lam-free, predetermined-local]"]
         return "\n".join(lines) + "\n"
@@ -373,6 +390,8 @@ def run_job(job: Job) -> MemberResult:
         th = m.theory()
         if job.question == "lf-equals-bell":
             _lf_vs_bell(job, th, res, deadline)
+        elif job.question == "lf-equals-pd":
+            _compare_sets(job, th, res, deadline, "partly-determined")
         elif job.question == "facets":
             _facet_count(job, th, res, deadline)
         elif job.question == "implies":
@@ -429,6 +448,28 @@ def _lf_vs_bell(job: Job, th, res: MemberResult, deadline) -> None:
         res.notes.append("a witness and the facet comparison disagree: investigate")
         return
     res.answer = answer
+
+
+def _compare_sets(job: Job, th, res: MemberResult, deadline, other: str) -> None:
+    """Local friendliness against another bundle of the member, both derived exactly."""
+    from .facets import compare_results, facets
+
+    if not res.estimate["hull_in_reach"] and job.reach != "all":
+        res.answer = "out of reach"
+        res.notes.append(f"exact hull estimated at {res.estimate['hull']}: not attempted (reach 'all' tries it)")
+        return
+    r1 = facets(th, "local-friendliness", cache=False, time_limit=_remaining(deadline))
+    r2 = facets(th, other, cache=False, time_limit=_remaining(deadline))
+    if r1.status != "complete" or r2.status != "complete":
+        res.answer = "out of time"
+        return
+    c = compare_results(r1, r2)
+    res.facets = {"local-friendliness": len(r1.facets), other: len(r2.facets)}
+    res.classes = {"local-friendliness": len(r1.classes), other: len(r2.classes)}
+    res.relation = c.relation
+    res.answer = "equal" if c.relation == "equal" else "not equal"
+    res.evidence.append("both sets derived exactly (certified vertices, Farkas-certified facets); containment "
+                        "checked in exact integer arithmetic")
 
 
 def _facet_count(job: Job, th, res: MemberResult, deadline) -> None:

@@ -136,3 +136,16 @@ def test_sequential_friends_give_the_bell_local_set():
     assert r.facets == {"local-friendliness": 684, "Bell-local": 684}  # Collins & Gisin (2004)
     th = Member((3, 3), 2, (True, True), 2).theory()
     assert [o.read_out_at for o in th.scenario.inner] == ["1", "2", "1", "2"]
+
+
+def test_local_friendliness_equals_partly_determined():
+    # Partially deterministic polytopes (arXiv:2510.25127; Bong et al. 2020, from memory): local friendliness
+    # with one friend per lab read out at one setting equals the mixtures of no-signalling behaviours whose
+    # read-out outcomes the hidden variable fixes.  Both sets from their own declarations, compared exactly
+    # (the 3/3 case with 932 facets is tests/test_facets.py::test_local_friendliness_equals_partly_determined).
+    t = Template(labs=(2,), settings=("2", "3/2"), friends=("all", "none"))
+    fr = run_family(t, "lf-equals-pd", time_limit=200)
+    assert [r.answer for r in fr.results] == ["equal"] * 4
+    pd = {r.member.key: r.facets["partly-determined"] for r in fr.results}
+    # two settings each: the Bell-local count (Fine 1982); no inner observers: no-signalling (positivity only)
+    assert pd["2labs-s2x2-o2-friends-AB"] == 24 and pd["2labs-s2x2-o2-friends-none"] == 16

@@ -34,8 +34,9 @@ def register(sub) -> None:
                    help="which labs hold an inner observer: all, none, first, all-but-first, each (every pattern)")
     p.add_argument("--sequence", default=None,
                    help="friend measurements per friend lab, e.g. 1,2 (a sequential friend read out at settings 1..k)")
-    p.add_argument("--question", default="lf-equals-bell", choices=("lf-equals-bell", "facets", "implies"),
-                   help="lf-equals-bell (default): does local friendliness equal the Bell-local set?; facets: how "
+    p.add_argument("--question", default="lf-equals-bell", choices=("lf-equals-bell", "lf-equals-pd", "facets", "implies"),
+                   help="lf-equals-bell (default): does local friendliness equal the Bell-local set?; lf-equals-pd: "
+                        "does it equal the partially deterministic set?; facets: how "
                         "many facets has --bundle?; implies: does --bundle imply --inequality?")
     p.add_argument("--bundle", default="local-friendliness", help="bundle for facets / implies (default local-friendliness)")
     p.add_argument("--inequality", default="", help="for implies: a catalog name or an inequality in the trade's notation")
