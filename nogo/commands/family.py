@@ -83,7 +83,8 @@ def _template(args):
 
 def run(args) -> int:
     from ..atomic import write_text
-    from ..family import csv_table, estimate, markdown_table, plot, run_family
+    from ..family import estimate, run_family
+    from ..family_output import csv_table, markdown_table, plot
 
     template = _template(args)
     if args.estimate_only:
