@@ -120,3 +120,23 @@ def test_reading_errors(clause, words):
     text = FILE.read_text().replace("bundles:\n", f"  hidden:\n    hidden: lam\n  odd:\n    independent: {clause}\nbundles:\n", 1)
     with pytest.raises(InputError, match=words):
         load_theory_text(text, "odd.yaml")
+
+
+def test_implication_chains_over_settings():
+    # E independent of S1 and (separately) of S2 implies E independent of S1 and S2 together,
+    # so a support-only clause on E of both is implied; one of them alone does not imply it.
+    base = (ROOT / "theories" / "bell-3x2.yaml").read_text()
+    extra = """
+  on-supports:
+    independent: {events: [B], of: [A.setting, C.setting], reading: supports}
+  b-free-of-a:
+    independent: {events: [B, C], of: [A.setting]}
+  b-free-of-c:
+    independent: {events: [A, B], of: [C.setting]}
+"""
+    text = base.replace("bundles:\n", extra.lstrip("\n") + "bundles:\n", 1)
+    t = load_theory_text(text, "chain.yaml")
+    m = compile_bundle(t, "on-supports+b-free-of-a+b-free-of-c")
+    assert any("on-supports" in n and "implied" in n for n in m.notes)
+    with pytest.raises(InputError, match="supports only"):
+        compile_bundle(t, "on-supports+b-free-of-a")
