@@ -40,6 +40,7 @@ from .errors import InputError, Where
 from .events import present_events, project_independence
 from .model import Column, LinearModel, ModelArrays, RowSource
 from .scenario import EventVar, Scenario
+from .supports import refuse_support_only
 from .theory import Factorise, Hidden, Independent, Predetermined, Theory
 
 
@@ -205,6 +206,7 @@ def compile_linear(theory: Theory, spec: str | list[str]) -> LinearModel:
     _check_linear(theory, assumptions)
     events = present_events(sc, assumptions)
     names = tuple(e.name for e in events)
+    support_notes = refuse_support_only(theory, assumptions, list(names))  # possibilistic clauses: implied or refused
     settings = sc.setting_tuples()
     s_index = {s: i for i, s in enumerate(settings)}
     n_party = len(sc.parties)
@@ -240,7 +242,7 @@ def compile_linear(theory: Theory, spec: str | list[str]) -> LinearModel:
     O = IntCSR(np.arange(n_col + 1, dtype=np.int64), coord, np.ones(n_col, dtype=np.int64),
                (n_col, len(settings) * n_out))
 
-    notes: list[str] = []
+    notes: list[str] = list(support_notes)
     for o in sc.inner:
         if o.name in names and o.read_out_at is not None:
             notes.append(f"read-out: {o.lab}'s outcome equals {o.name}'s when {o.lab}'s setting is {o.read_out_at}")

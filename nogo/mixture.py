@@ -100,6 +100,7 @@ from .errors import InputError, ModelTooLarge, Where
 from .model import Column, LinearModel, RowSource
 from .scenario import EventVar, Scenario
 from .theory import Absolute, Assumption, Counterfactual, Factorise, Hidden, Independent, Predetermined, Theory
+from .supports import refuse_support_only
 
 Settings = tuple[str, ...]
 
@@ -589,6 +590,7 @@ def compile_mixture(theory: Theory, spec: str | list[str], max_columns: int = 20
     events = present_events(sc, assumptions)
     names = [e.name for e in events]
     b = _read_bundle(theory, assumptions, names)
+    b.notes += refuse_support_only(theory, assumptions, names)  # possibilistic clauses: implied or refused
     if b.hidden is None:
         return compile_linear(theory, spec)
     if not b.per_lam and not b.partitions and not b.predet:

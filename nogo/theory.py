@@ -55,6 +55,15 @@ class Independent:
 
 
 @dataclass(frozen=True)
+class SupportIndependent(Independent):
+    """Possibilistic independence: which values of ``events`` are possible does not change with ``of``.
+
+    Implied by :class:`Independent` (equal marginals have equal supports), not
+    convex: the probabilistic compilers refuse it (:mod:`nogo.supports`).
+    """
+
+
+@dataclass(frozen=True)
 class Counterfactual:
     """Joint existence of an outcome for every setting of each party (``A@x``)."""
 
@@ -105,6 +114,8 @@ class Theory:
     file: str | None = None
     title: str = ""
     text: str = field(default="", repr=False)  # the file's text, for cache keys
+    light_cone: object = None  # nogo.lightcone.LightCone when declared
+    generated: tuple = ()  # nogo.lightcone.Generated specs behind generated assumptions
 
     def resolve(self, spec: str | list[str] | tuple[str, ...]) -> tuple[str, tuple[Assumption, ...]]:
         """A bundle name, or assumption names joined by '+' or ',' → (label, assumptions)."""
@@ -223,14 +234,15 @@ def _parse_assumption(name: str, spec, amap: YMap, names: _Names) -> Assumption:
                 evs = names.event_list(item if isinstance(item, list) else [item], at(key), allow_hidden=False)
                 clauses.append(Absolute(evs))
             elif key == "independent":
-                m = _mapping(item, at(key), {"events", "of", "given"}, f"{path}.independent")
+                m = _mapping(item, at(key), {"events", "of", "given", "reading"}, f"{path}.independent")
                 for req in ("events", "of"):
                     if req not in m:
                         raise InputError(f"'independent' needs '{req}'", at(key))
                 given = names.hidden_list(m["given"], m.where("given", f"{path}.independent.given")) if "given" in m else ()
-                clauses.append(Independent(names.event_list(m["events"], m.where("events", f"{path}.independent.events")),
-                                           names.settings_list(m["of"], m.where("of", f"{path}.independent.of")),
-                                           given))
+                kind = _independence_kind(m, given, m.where("reading", f"{path}.independent.reading"))
+                clauses.append(kind(names.event_list(m["events"], m.where("events", f"{path}.independent.events")),
+                                    names.settings_list(m["of"], m.where("of", f"{path}.independent.of")),
+                                    given))
             elif key == "counterfactual":
                 plist = item if isinstance(item, list) else [item]
                 parties = []
@@ -322,11 +334,20 @@ def _namespace(data, amap, bmap, file: str | None) -> set[str]:
             add(check_name(bname, w, "bundle"), "bundle", w)
     return hidden
 
+def _independence_kind(m, given, where: Where):
+    """``reading: joint`` (default) or ``reading: supports`` (possibilistic, without 'given')."""
+    on = str(m.get("reading", "joint"))
+    if on not in ("joint", "supports"):
+        raise InputError(f"unknown reading '{on}'", where, suggest(on, ["joint", "supports"]))
+    if on == "supports" and given:
+        raise InputError("a support-only clause takes no 'given'", where)
+    return SupportIndependent if on == "supports" else Independent
+
 
 def theory_from_yaml(data, file: str | None = None, text: str = "") -> Theory:
     if not isinstance(data, dict):
         raise InputError("a theory file is a mapping with 'scenario', 'assumptions' and 'bundles'", Where(file, 1))
-    check_keys(data, {"scenario", "assumptions", "bundles", "title", "says", "source"}, "")
+    check_keys(data, {"scenario", "assumptions", "bundles", "title", "says", "source", "light_cone"}, "")
     if "scenario" not in data:
         raise InputError("the theory has no 'scenario'", Where(file, 1))
     scenario = scenario_from_yaml(data["scenario"], file)
@@ -337,6 +358,14 @@ def theory_from_yaml(data, file: str | None = None, text: str = "") -> Theory:
     hidden = _namespace(data, amap, bmap, file)
     names = _Names(scenario, hidden)
     assumptions = {str(n): _parse_assumption(str(n), spec, amap, names) for n, spec in amap.items()}
+    light_cone, generated, generated_bundles = None, [], {}
+    if "light_cone" in data:  # local agency generated from a declared light-cone structure
+        from .lightcone import read_light_cone  # noqa: PLC0415 - one-way: lightcone never imports theory
+        light_cone, generated, generated_bundles = read_light_cone(
+            data, scenario, set(assumptions) | set(map(str, data.get("bundles") or {})), file)
+        for g in generated:
+            kind = SupportIndependent if g.supports else Independent
+            assumptions[g.name] = Assumption(g.name, (kind(g.events, g.of),), g.says, g.source, g.line)
     bundles: dict[str, tuple[str, ...]] = {}
     if not isinstance(bmap, dict):
         raise InputError("'bundles' must be a mapping of names to lists of assumptions", data.where("bundles", "bundles"))
@@ -351,7 +380,8 @@ def theory_from_yaml(data, file: str | None = None, text: str = "") -> Theory:
                 raise InputError(f"no assumption named '{m}'", members.where(i, f"bundles.{bname}"),
                                  suggest(str(m), assumptions))
         bundles[str(bname)] = tuple(str(m) for m in members)
-    return Theory(scenario, assumptions, bundles, file, str(data.get("title", "")), text)
+    bundles.update(generated_bundles)
+    return Theory(scenario, assumptions, bundles, file, str(data.get("title", "")), text, light_cone, tuple(generated))
 
 
 def load_theory(path: str | Path) -> Theory:

@@ -126,7 +126,8 @@ def run(args) -> int:
         else:
             print(f"proof accepted: every one of its {len(Proof.from_dict(data).steps)} steps checks out")
         return 0 if not problems else 1
-    if compile_bundle(theory, args.bundle).kind == "mixture":
+    hidden = any(type(c).__name__ == "Hidden" for a in theory.resolve(args.bundle)[1] for c in a.clauses)
+    if hidden and compile_bundle(theory, args.bundle).kind == "mixture":  # (support-only clauses never compile)
         return _run_responses(args, theory, pattern)
     r = decide_pattern(theory, args.bundle, pattern, minimise="minimal" if args.minimal_only else "smallest",
                        time_limit=args.time_limit)

@@ -41,16 +41,31 @@ def run(args) -> int:
                    "inner_observers": {o.name: {"lab": o.lab, "read_out_at": o.read_out_at}
                                        for o in th.scenario.inner},
                    "assumptions": {a.name: {"says": a.says, "source": a.source} for a in th.assumptions.values()},
-                   "bundles": {b: {"assumptions": list(m), **sizes[b]} for b, m in th.bundles.items()}})
+                   "bundles": {b: {"assumptions": list(m), **sizes[b]} for b, m in th.bundles.items()},
+                   **_light_cone_json(th)})
         return 0
     print(th.title or shown_path(args.theory))
     print(th.scenario.describe())
     print("\nassumptions:")
     for a in th.assumptions.values():
         print(f"  {a.name}: {a.says}" + (f"  [{a.source}]" if a.source else ""))
+    if th.light_cone is not None:  # generated local agency, in the trade's notation (nogo/lightcone.py)
+        from ..lightcone import describe
+        print("\nlocal agency generated from the light-cone declaration:")
+        print("\n".join("  " + line for line in describe(th.scenario, th.light_cone, th.generated)))
     print("\nbundles:")
     for b, members in th.bundles.items():
         s = sizes[b]
         size = f"{s['kind']} model {s['rows']} x {s['columns']}" if "rows" in s else s["error"]
         print(f"  {b} = {' + '.join(members)}   ({size})")
     return 0
+
+
+def _light_cone_json(th) -> dict:
+    """The generated local-agency constraints (nogo/lightcone.py), when the theory declares a light cone."""
+    if th.light_cone is None:
+        return {}
+    from ..lightcone import clause_text
+    return {"light_cone": {"future": {p: list(v) for p, v in th.light_cone.future.items()},
+                           "generated": {g.name: clause_text(th.scenario, g.events, g.of, g.supports)
+                                         for g in th.generated}}}

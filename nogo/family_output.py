@@ -1,0 +1,74 @@
+"""Families of scenarios: the table (Markdown, CSV) and the plot of a :class:`nogo.family.FamilyResult`.
+
+Rendering only; every number comes from :mod:`nogo.family`.  Files are
+written by the command through :mod:`nogo.atomic`.
+"""
+
+from __future__ import annotations
+
+from .family import FamilyResult
+
+
+def table_rows(fr: FamilyResult) -> list[list[str]]:
+    head = ["member", "labs", "settings", "inner observers", "dimension", "hull estimate", "answer", "facets",
+            "evidence", "seconds"]
+    rows = [head]
+    for r in fr.results:
+        m = r.member
+        fac = ", ".join(f"{k} {v}" for k, v in r.facets.items())
+        ev = r.witness["inequality"] if r.witness else ("; ".join(r.evidence) or "; ".join(r.notes))
+        rows.append([m.key, str(m.labs), "/".join(map(str, m.settings)),
+                     ",".join(p for p, f in zip(m.parties, m.friends) if f) or "none",
+                     str(r.estimate["dimension"]), r.estimate["hull"].split(" (")[0], r.answer, fac, ev,
+                     str(r.seconds)])
+    return rows
+
+
+def markdown_table(fr: FamilyResult) -> str:
+    rows = table_rows(fr)
+    out = ["| " + " | ".join(rows[0]) + " |", "|" + "---|" * len(rows[0])]
+    out += ["| " + " | ".join(c.replace("|", "\\|") for c in r) + " |" for r in rows[1:]]
+    return "\n".join(out) + "\n"
+
+
+def csv_table(fr: FamilyResult) -> str:
+    import csv
+    import io
+
+    buf = io.StringIO()
+    csv.writer(buf).writerows(table_rows(fr))
+    return buf.getvalue()
+
+
+def plot(fr: FamilyResult, path: str) -> None:
+    """Facet counts per member (bars) with the answer written above; saved atomically."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from .atomic import save_figure
+
+    names = [r.member.key for r in fr.results]
+    bundles = sorted({b for r in fr.results for b in r.facets})
+    fig, ax = plt.subplots(figsize=(max(6, 0.9 * len(names) + 2), 4.5))
+    width = 0.8 / max(1, len(bundles))
+    for k, b in enumerate(bundles):
+        xs = [i + (k - (len(bundles) - 1) / 2) * width for i in range(len(names))]
+        ys = [r.facets.get(b, 0) for r in fr.results]
+        ax.bar(xs, ys, width=width, label=b)
+    peak = max((v for r in fr.results for v in r.facets.values()), default=1)
+    ax.set_yscale("log")
+    ax.set_ylim(1, peak * 40)
+    for i, r in enumerate(fr.results):
+        top = max(r.facets.values(), default=1)
+        ax.text(i, top * 1.3, r.answer, ha="center", va="bottom", fontsize=7, rotation=90)
+    ax.set_xticks(range(len(names)))
+    ax.set_xticklabels(names, rotation=60, ha="right", fontsize=7)
+    ax.set_ylabel("facets (exact derivations only; log scale)")
+    ax.set_title(f"nogo family: {fr.question}")
+    if bundles:
+        ax.legend(fontsize=8)
+    fig.tight_layout()
+    save_figure(fig, path, dpi=120)
+    plt.close(fig)
