@@ -33,18 +33,15 @@ def register(sub) -> None:
 
 
 def _theory_path(theory_file: str, target: str | None) -> str:
-    """The theory path as the saved file should name it: relative to that file's folder, no '..' detours
-    unless needed, absolute when the two share no folder."""
+    """The theory path as the saved file should name it: relative to that file's folder when the
+    theory lies inside it, else absolute (never a '..' detour)."""
     full = os.path.normpath(os.path.abspath(theory_file))
     base = os.path.dirname(os.path.abspath(target)) if target else os.getcwd()
     try:
-        common = os.path.commonpath([full, base])
         rel = os.path.relpath(full, base)
     except ValueError:  # another drive
         return full
-    home = os.path.expanduser("~")
-    shallow = common in (os.path.dirname(common), os.path.dirname(home))  # only the root (or /home) in common
-    return full if shallow or rel.count("..") > 3 else rel
+    return full if rel == ".." or rel.startswith(".." + os.sep) else rel
 
 
 def _yaml_of(exp, values, target: str | None = None) -> str:
