@@ -85,7 +85,13 @@ def version() -> str:
         return "unknown"
 
 
-def build_parser() -> argparse.ArgumentParser:
+def build_parser(command: str | None = None) -> argparse.ArgumentParser:
+    """The parser of every command; with *command*, only that command's module when one is named after it.
+
+    ``nogo check ...`` then loads ``nogo.commands.check`` alone (start-up time); ``nogo --help``, a
+    misspelt command, or a command registered by a module of another name (``proof-search``) loads all.
+    Each module ``nogo/commands/NAME.py`` registers at least the command NAME.
+    """
     from . import commands
 
     parser = argparse.ArgumentParser(
@@ -94,11 +100,11 @@ def build_parser() -> argparse.ArgumentParser:
     parser.add_argument("--version", action="version", version=f"nogo {version()}",
                         help="print nogo's version and stop")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
-    for info in sorted(pkgutil.iter_modules(commands.__path__), key=lambda m: m.name):
-        if info.name.startswith("_"):
-            continue
-        mod = importlib.import_module(f"{commands.__name__}.{info.name}")
-        mod.register(sub)
+    names = sorted(m.name for m in pkgutil.iter_modules(commands.__path__) if not m.name.startswith("_"))
+    if command in names:
+        names = [command]
+    for name in names:
+        importlib.import_module(f"{commands.__name__}.{name}").register(sub)
     return parser
 
 
@@ -109,7 +115,7 @@ def main(argv: list[str] | None = None) -> int:
         if args_list == ["--version"]:  # answer without importing the commands
             print(f"nogo {version()}")
             return 0
-        parser = build_parser()
+        parser = build_parser(args_list[0] if args_list else None)
         args = parser.parse_args(args_list)
         if not getattr(args, "run", None):
             parser.print_help()
