@@ -43,6 +43,7 @@ from .compile import compile_bundle
 from .inequality import Inequality
 from .polytope import (Frame, HullFacet, Point, Polytope, Progress, _coords_matrix, _lcm, choose_frame,
                        derive_polytope, derive_symmetric, fingerprint, int_matmul, primitive)
+from .polytope.group import move_matrix
 from .report import q
 from .symmetry import Generator, bundle_generators, permutation
 from .theory import Theory
@@ -161,23 +162,6 @@ class FacetResult:
 # ---------------------------------------------------------------------------
 # symmetry classes
 # ---------------------------------------------------------------------------
-def _move_matrix(frame: Frame, perm: list[int]) -> tuple[np.ndarray, int]:
-    """The action of a coordinate permutation on (a, b) in frame coordinates: integers over D."""
-    k = frame.dim
-    rows: list[list[Fraction]] = []
-    for f in frame.functionals:
-        moved = [Fraction(0)] * len(f.vector)
-        for i, v in enumerate(f.vector):
-            if v:
-                moved[perm[i]] = Fraction(v)
-        lam, s = frame.reduce_raw(moved, Fraction(0))
-        rows.append(lam + [s])
-    rows.append([Fraction(0)] * k + [Fraction(1)])
-    D = _lcm(v.denominator for r in rows for v in r)
-    M = np.array([[int(v * D) for v in r] for r in rows], dtype=object)
-    return M, D
-
-
 def _apply_matrix(F: np.ndarray, M: np.ndarray) -> np.ndarray:
     fmax = int(np.max(np.abs(F))) if F.size else 0
     mmax = max(abs(int(v)) for v in M.flat)
@@ -213,7 +197,7 @@ def classify(P: Polytope, gens: list[Generator]) -> tuple[list[list[int]], list[
                     break
         if ok:
             kept.append(g.label)
-            mats.append(_move_matrix(P.frame, perm))
+            mats.append(move_matrix(P.frame, perm))
         else:
             dropped.append(g.label)
     n = len(P.facets)
@@ -229,7 +213,7 @@ def classify(P: Polytope, gens: list[Generator]) -> tuple[list[list[int]], list[
             i = parent[i]
         return i
 
-    for M, _D in mats:
+    for M in mats:
         img = _apply_matrix(Fi, M)
         for i, row in enumerate(img):
             j = keys.get(tuple(int(v) for v in row))
