@@ -208,7 +208,7 @@ def support_pattern(state: IntState, choice, title: str = "", source: str = "") 
             (impossible if zeros[a] else possible).add((s, tuple(OUTCOMES[k] for k in a)))
     if not possible:
         raise InputError("the state is zero")
-    return SupportPattern(ps, frozenset(possible), frozenset(impossible), title or f"{state.label} {choice}",
+    return SupportPattern(ps, frozenset(possible), frozenset(impossible), title or f"{state.label}, " + " ".join(f"{p}:{a}/{b}" for p, (a, b) in zip(ps, choice)),
                           source, "exact (Gaussian-integer amplitudes)")
 
 
