@@ -9,7 +9,7 @@ Method (T. Christof and G. Reinelt, "Decomposition and parallelization
 techniques for enumerating the facets of combinatorial polytopes",
 Int. J. Comput. Geom. Appl. 11, 423 (2001); D. Bremner, M. Dutour Sikirić,
 A. Schürmann, "Polyhedral representation conversion up to symmetries",
-CRM Proc. Lecture Notes 48, 45 (2009), arXiv:math/0702239):
+CRM Proceedings & LN 48, 45 (2009), arXiv:math/0702239):
 
 1. one facet by *gift wrapping* from a supporting hyperplane: rotate it
    about its tight set onto one more point until the tight set has affine

@@ -20,9 +20,8 @@ under the declarations: the message says why).  Floats never decide.
 
 from __future__ import annotations
 
-import time
 from fractions import Fraction
-from typing import Any, Callable
+from typing import Any
 
 from ..errors import InputError
 from .claims import Claim, bundle_spec, bundle_text
@@ -313,44 +312,3 @@ def decide_not_needed(ctx: Context, claim: Claim, v: Verdict) -> None:
         v.status, v.summary = "REFUTED", f"without {drop} the set allows {q(r.maximum)} > {q(ineq.bound)}"
         v.account = (f"'{drop}' is needed: {rs} allows an exact behaviour reaching {q(r.maximum)}, above the bound "
                      f"{q(ineq.bound)}.")
-
-
-def deciders() -> dict[str, Callable]:
-    """Claim kind -> decider (the set, pattern and quantum modules build on this one's helpers)."""
-    from .patterns import decide_pattern_claim
-    from .quantum import QUANTUM
-    from .sets import decide_facet, decide_facet_count, decide_sets
-
-    return {"implies": decide_implication, "does_not_imply": decide_implication, "minimal": decide_minimal,
-            "not_needed": decide_not_needed, "same_set": decide_sets, "contained_in": decide_sets,
-            "not_contained_in": decide_sets, "facet": decide_facet, "facet_count": decide_facet_count,
-            "contradiction": decide_pattern_claim, "contradiction_within": decide_pattern_claim, **QUANTUM}
-
-
-def decide_claim(ctx: Context, claim: Claim) -> Verdict:
-    """Decide one claim; a claim the declarations cannot give one meaning is ILL-POSED, not an error."""
-    t0 = time.perf_counter()
-    v = Verdict(claim.id, claim.kind, "NOT DECIDED", "", "")
-    if claim.theory:
-        v.files["theory"] = claim.theory
-    fn = deciders()[claim.kind]
-    try:
-        fn(ctx, claim, v)
-    except InputError as exc:
-        v.status, v.summary = "ILL-POSED", exc.message.split(";")[0]
-        v.account = f"The claim cannot be given one meaning under the declarations: {exc.message}."
-        if exc.hint:
-            v.account += f" ({exc.hint}.)"
-        v.checks, v.models = [], {}
-    except Exception as exc:  # noqa: BLE001 - one claim's failure must not hide the verdicts of the others
-        import os
-
-        if os.environ.get("NOGO_DEBUG"):
-            raise
-        v.status, v.summary = "NOT DECIDED", f"nogo could not decide it ({type(exc).__name__})"
-        v.account = (f"Deciding this claim stopped with an internal error ({type(exc).__name__}: {exc}); no verdict "
-                     "is given. This is a defect of nogo, not of the claim: please report it (NOGO_DEBUG=1 shows "
-                     "where it happened).")
-        v.checks, v.models = [], {}
-    v.seconds = time.perf_counter() - t0
-    return v
