@@ -49,8 +49,8 @@ from .model import Column, LinearModel, ModelArrays
 
 # -- views of the reduced model's names --------------------------------------------
 @dataclass
-class SubSources(Sequence):
-    """The sources of the rows ``keep`` of a parent source map."""
+class Subset(Sequence):
+    """The entries ``keep`` of a parent sequence (kept rows' sources, kept columns)."""
 
     parent: Sequence
     keep: np.ndarray
@@ -88,20 +88,6 @@ class MergedColumns(Sequence):
         if isinstance(i, slice):
             return [self._one(k) for k in range(*i.indices(len(self)))]
         return self._one(i)
-
-
-@dataclass
-class SubColumns(Sequence):
-    parent: Sequence
-    keep: np.ndarray
-
-    def __len__(self) -> int:
-        return len(self.keep)
-
-    def __getitem__(self, i):
-        if isinstance(i, slice):
-            return [self.parent[int(k)] for k in self.keep[i]]
-        return self.parent[int(self.keep[i])]
 
 
 def _derived(model: LinearModel, arrays: ModelArrays, columns, sources, note: str) -> LinearModel:
@@ -361,7 +347,7 @@ def _merge(model: LinearModel) -> MergeStep | None:
     summary = (f"merge: {n - ncls} columns forced equal to others by {len(rows)} rows q_j = q_k "
                f"({n} -> {ncls} columns); {dup} rows that became duplicates or 0 = 0 dropped")
     after = _derived(model, arrays, MergedColumns(model.columns, model.scenario, firsts, size),
-                     SubSources(model.sources, kept_rows), summary)
+                     Subset(model.sources, kept_rows), summary)
     return MergeStep("merge", summary, model, after, cls=cls, kept_rows=kept_rows,
                      edges=(fu.astype(np.int64), fv.astype(np.int64), fr, falpha.astype(np.int64)))
 
@@ -408,7 +394,7 @@ def _zero(model: LinearModel) -> ZeroStep | None:
                          a.O.take_rows(kept_cols), a.obs_den)
     summary = (f"zero: {int(dead.sum())} columns forced to 0 by {len(zr)} rows with entries of one sign "
                f"and right side 0 ({n} -> {len(kept_cols)} columns)")
-    after = _derived(model, arrays, SubColumns(model.columns, kept_cols), SubSources(model.sources, kept_rows),
+    after = _derived(model, arrays, Subset(model.columns, kept_cols), Subset(model.sources, kept_rows),
                      summary)
     return ZeroStep("zero", summary, model, after, kept_cols=kept_cols, kept_rows=kept_rows, zero_rows=zr)
 

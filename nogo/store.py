@@ -86,12 +86,16 @@ class Store:
 
     def put(self, key: str, fingerprint: str, kind: str, payload: str) -> bool:
         """Write one entry in one transaction; False (with a warning kept) when the store cannot be written."""
+        return self._write("INSERT OR REPLACE INTO entries VALUES (?, ?, ?, ?, ?, ?)",
+                           (key, fingerprint, kind, content_hash(payload), payload, time.time()))
+
+    def _write(self, sql: str, params: tuple) -> bool:
+        """One statement in one transaction; False (with a warning kept) when the store cannot be written."""
         try:
             con = self._connect()
             try:
                 with con:
-                    con.execute("INSERT OR REPLACE INTO entries VALUES (?, ?, ?, ?, ?, ?)",
-                                (key, fingerprint, kind, content_hash(payload), payload, time.time()))
+                    con.execute(sql, params)
             finally:
                 con.close()
             return True
@@ -101,18 +105,8 @@ class Store:
 
     # -- pieces of a run ---------------------------------------------------------------------------
     def put_piece(self, run: str, piece: str, data) -> bool:
-        try:
-            con = self._connect()
-            try:
-                with con:
-                    con.execute("INSERT OR REPLACE INTO pieces VALUES (?, ?, ?, ?)",
-                                (run, piece, json.dumps(data), time.time()))
-            finally:
-                con.close()
-            return True
-        except (sqlite3.Error, OSError) as err:
-            self._warn("written", err)
-            return False
+        return self._write("INSERT OR REPLACE INTO pieces VALUES (?, ?, ?, ?)",
+                           (run, piece, json.dumps(data), time.time()))
 
     def pieces(self, run: str) -> dict[str, object]:
         if not self.path.exists():
