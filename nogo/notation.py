@@ -156,7 +156,6 @@ def render_text(ineq: Inequality, notation: str | None = None) -> tuple[str, boo
     parts: list[tuple[Fraction, str]] = []
     exact = True
     if notation == "correlators":
-        n = len(sc.parties)
         half = Fraction(1, 2)
 
         def basis(i, o):

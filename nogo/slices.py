@@ -478,9 +478,6 @@ def quantum_band(sc: Scenario, P0, D1, D2, experiments=(), directions: int = 16,
 
 def _found_points(exp, ineq: Inequality, P0, D1, D2, starts: int) -> list[dict]:
     """Quantum behaviours found by local search on F that lie on the plane (float, to 1e-7)."""
-    import numpy as np
-
-    from .quantum import behaviour
     from .quantum.optimise import optimise
 
     opt = optimise(exp, ineq, starts=starts, seed=0, over_state=True)

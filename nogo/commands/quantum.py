@@ -124,7 +124,6 @@ def run(args) -> int:
     from ..theory import load_theory
     from ..quantum import behaviour, exact_behaviour, load_experiment
     from ..quantum.certify import evaluate
-    from ..quantum.numbers import arb_text
     from ..quantum.states import state_from_yaml
     from ..quantum.visibility import robustness
     from ..yamlread import read_yaml_text
@@ -154,25 +153,41 @@ def run(args) -> int:
     shown = [quantum_value(v) for v in values]
     exp_file, th_file = shown_path(args.experiment), shown_path(args.theory or exp.theory_file)
     if args.json:
-        emit_json({
-            "experiment": exp_file, "title": exp.title, "theory": th_file,
-            "state": exp.state.label, "exact_inputs": exp.is_exact,
-            "behaviour": [{"settings": list(s), "outcomes": list(a), "p": fb[(s, a)],
-                           **({"exact": str(eb[(s, a)])} if eb else {})} for s, a in sc.coordinates()],
-            "inequalities": shown,
-            "bundles": [{"bundle": r.bundle, "inside": r.inside, "critical_visibility": r.visibility,
-                         "noise": r.noise, "status": r.status, "evidence": _bundle_evidence(r), "notes": r.notes,
-                         **({"separating": separating_dict(r.separation)} if r.separation else {})}
-                        for r in robust],
-        })
+        emit_json(_json_report(exp, exp_file, th_file, fb, eb, shown, robust))
         return 0 if outside else 1
-
     L = [f"experiment  {exp_file}" + (f"  ({exp.title})" if exp.title else ""),
          f"theory      {th_file}",
          f"state       {exp.state.label}; inputs {'exact' if exp.is_exact else 'numeric only (no certified verdicts)'}",
          "", "behaviour (Born rule):"]
     L += _behaviour_table(sc, fb, eb)
     L += ["", "inequalities (values of the left side as written):"]
+    L += _inequality_lines(values, shown)
+    L += ["", f"bundles (critical visibility against {robust[0].noise if robust else 'noise'}):"]
+    L += _bundle_lines(robust)
+    from ..report import DISCLAIMER
+
+    L += ["", DISCLAIMER]
+    print("\n".join(L))
+    return 0 if outside else 1
+
+
+def _json_report(exp, exp_file, th_file, fb, eb, shown, robust) -> dict:
+    sc = exp.scenario
+    return {
+        "experiment": exp_file, "title": exp.title, "theory": th_file,
+        "state": exp.state.label, "exact_inputs": exp.is_exact,
+        "behaviour": [{"settings": list(s), "outcomes": list(a), "p": fb[(s, a)],
+                       **({"exact": str(eb[(s, a)])} if eb else {})} for s, a in sc.coordinates()],
+        "inequalities": shown,
+        "bundles": [{"bundle": r.bundle, "inside": r.inside, "critical_visibility": r.visibility,
+                     "noise": r.noise, "status": r.status, "evidence": _bundle_evidence(r), "notes": r.notes,
+                     **({"separating": separating_dict(r.separation)} if r.separation else {})}
+                    for r in robust],
+    }
+
+
+def _inequality_lines(values, shown) -> list[str]:
+    L = []
     for v, d in zip(values, shown):
         name = v.inequality.name or v.inequality.display()
         val = f"{d['exact']} = {d['value']:.6f}" if d["exact"] is not None else f"{d['value']:.6f}"
@@ -185,7 +200,13 @@ def run(args) -> int:
         if v.inequality.origin:
             L.append(f"  {'':<22} ({v.inequality.origin})")
         L.append(f"  {'':<22} {d['evidence']}")
-    L += ["", f"bundles (critical visibility against {robust[0].noise if robust else 'noise'}):"]
+    return L
+
+
+def _bundle_lines(robust) -> list[str]:
+    from ..quantum.numbers import arb_text
+
+    L = []
     for r in robust:
         if r.inside is True:
             L.append(f"  {r.bundle:<22} INSIDE; the mixture stays inside up to v = {r.visibility:.6f}")
@@ -206,8 +227,4 @@ def run(args) -> int:
                      + (f"; v* = {r.visibility:.6f}" if r.visibility is not None else ""))
         for n in r.notes:
             L.append(f"  {'':<22} note: {n}")
-    from ..report import DISCLAIMER
-
-    L += ["", DISCLAIMER]
-    print("\n".join(L))
-    return 0 if outside else 1
+    return L

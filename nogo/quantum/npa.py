@@ -177,47 +177,14 @@ def npa_bound(ineq: Inequality, level: str = "1", solver: str | None = None, cer
     t0 = time.time()
     words = level_words(sc, level)
     n = len(words)
-    classes: dict = {}
-    entry_class = {}
-    for i in range(n):
-        for j in range(i, n):
-            key = moment_key(tuple(reversed(words[i])) + words[j], n_par)
-            entry_class[(i, j)] = key
-            if key is not None:
-                classes.setdefault(key, []).append((i, j))
+    classes, entry_class = _moment_classes(words, n_par)
     ident = tuple(() for _ in range(n_par))
-
-    terms, const = collins_gisin_terms(sc, ineq.coeffs)
-    cost: dict = {}
-    for (parties, settings, outcomes), c in terms.items():
-        word = tuple((sc.party_index(p), x, a) for p, x, a in zip(parties, settings, outcomes))
-        key = moment_key(word, n_par)
-        if key not in classes:
-            raise InputError(f"level {level} does not contain the moment of {parties} at settings {settings}",
-                             hint="use a higher level (for three parties: 1+AB or 2)")
-        cost[key] = cost.get(key, Fraction(0)) + c
+    cost, const = _moment_cost(ineq, classes, level)
 
     G = cp.Variable((n, n), symmetric=True)
-    cons_eq = []
-    import scipy.sparse as sps
-
-    rows, cols, vals, rhs = [], [], [], []
-    r = 0
-
-    def vec_index(i, j):
-        return j * n + i  # column-major (cp.vec)
-    for (i, j), key in entry_class.items():
-        if key is None:
-            rows.append(r); cols.append(vec_index(i, j)); vals.append(1.0); rhs.append(0.0); r += 1
-    for key, entries in classes.items():
-        i0, j0 = entries[0]
-        if key == ident:
-            rows.append(r); cols.append(vec_index(i0, j0)); vals.append(1.0); rhs.append(1.0); r += 1
-        for (i, j) in entries[1:]:
-            rows += [r, r]; cols += [vec_index(i, j), vec_index(i0, j0)]; vals += [1.0, -1.0]; rhs.append(0.0); r += 1
-    Aeq = sps.csr_matrix((vals, (rows, cols)), shape=(r, n * n))
+    Aeq, rhs = _moment_equalities(classes, entry_class, ident, n)
     psd = G >> 0
-    cons = [psd, Aeq @ cp.vec(G, order="F") == np.array(rhs)]
+    cons = [psd, Aeq @ cp.vec(G, order="F") == rhs]
     obj = float(const) + sum(float(c) * G[classes[k][0]] for k, c in cost.items())
     prob = cp.Problem(cp.Maximize(obj), cons)
     solver = (solver or "CLARABEL").upper()
@@ -233,6 +200,67 @@ def npa_bound(ineq: Inequality, level: str = "1", solver: str | None = None, cer
             res.notes.append("the dual could not be made into a certified bound")
     res.seconds = time.time() - t0
     return res
+
+
+def _moment_classes(words, n_par: int):
+    """Group the moment matrix's entries by the moment they stand for (None: a zero entry)."""
+    classes: dict = {}
+    entry_class = {}
+    n = len(words)
+    for i in range(n):
+        for j in range(i, n):
+            key = moment_key(tuple(reversed(words[i])) + words[j], n_par)
+            entry_class[(i, j)] = key
+            if key is not None:
+                classes.setdefault(key, []).append((i, j))
+    return classes, entry_class
+
+
+def _moment_cost(ineq: Inequality, classes: dict, level: str):
+    """The left side in Collins–Gisin moments: a coefficient per moment class, and the constant."""
+    sc = ineq.scenario
+    n_par = len(sc.parties)
+    terms, const = collins_gisin_terms(sc, ineq.coeffs)
+    cost: dict = {}
+    for (parties, settings, outcomes), c in terms.items():
+        word = tuple((sc.party_index(p), x, a) for p, x, a in zip(parties, settings, outcomes))
+        key = moment_key(word, n_par)
+        if key not in classes:
+            raise InputError(f"level {level} does not contain the moment of {parties} at settings {settings}",
+                             hint="use a higher level (for three parties: 1+AB or 2)")
+        cost[key] = cost.get(key, Fraction(0)) + c
+    return cost, const
+
+
+def _moment_equalities(classes: dict, entry_class: dict, ident, n: int):
+    """Sparse equalities on vec(G) (column-major): zero entries, G[identity] = 1, equal moments equal."""
+    import scipy.sparse as sps
+
+    rows, cols, vals, rhs = [], [], [], []
+
+    def vec_index(i, j):
+        return j * n + i  # column-major (cp.vec)
+
+    def row(entries):
+        r = len(rhs)
+        for col, val in entries:
+            rows.append(r)
+            cols.append(col)
+            vals.append(val)
+
+    for (i, j), key in entry_class.items():
+        if key is None:
+            row([(vec_index(i, j), 1.0)])
+            rhs.append(0.0)
+    for key, entries in classes.items():
+        i0, j0 = entries[0]
+        if key == ident:
+            row([(vec_index(i0, j0), 1.0)])
+            rhs.append(1.0)
+        for (i, j) in entries[1:]:
+            row([(vec_index(i, j), 1.0), (vec_index(i0, j0), -1.0)])
+            rhs.append(0.0)
+    return sps.csr_matrix((vals, (rows, cols)), shape=(len(rhs), n * n)), np.array(rhs)
 
 
 def _certify(Zf: np.ndarray, classes: dict, cost: dict, const: Fraction, ident, n: int) -> Fraction | None:

@@ -30,7 +30,7 @@ from ..fanout import fan_out
 from ..inequality import Coord, Inequality
 from .born import behaviour_array
 from .experiment import Experiment
-from .measurements import Measurement, bloch_float, from_unitary
+from .measurements import bloch_float, from_unitary
 from .states import exact_from_vector
 
 

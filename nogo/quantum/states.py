@@ -193,87 +193,67 @@ def _split_dims(total: int, n: int, dims, where) -> tuple[int, ...]:
     return (d,) * n
 
 
-def state_from_yaml(raw, n_parties: int, where: Where, dims_hint: tuple[int, ...] | None = None) -> State:
-    """Read a state declaration (string family name or mapping)."""
-    path = where.key or "state"
-    if isinstance(raw, str):
-        raw_map = {raw: None}
-        m_where = where
-    elif isinstance(raw, dict):
-        raw_map = raw
-        m_where = where
-    else:
-        raise InputError("a state is a family name (singlet, ghz, w, white, max_entangled) or a mapping",
-                         where, "for example 'state: singlet' or 'state: {vector: [1, 0, 0, 1]}'")
-    keys = [k for k in raw_map if k in _FAMILIES]
-    unknown = [k for k in raw_map if k not in _FAMILIES and k not in _MODIFIERS]
-    if unknown:
-        from ..errors import suggest
+def _dimension_arg(arg, what: str, kw: Where) -> int:
+    d = 2 if arg is None else arg
+    if not isinstance(d, int) or d < 2:
+        raise InputError(f"{what} takes the local dimension (>= 2), e.g. '{what}: 2'", kw)
+    return d
 
-        raise InputError(f"unknown state key '{unknown[0]}'", _where(raw, unknown[0], f"{path}.{unknown[0]}", m_where),
-                         suggest(str(unknown[0]), _FAMILIES + _MODIFIERS))
-    if len(keys) != 1:
-        raise InputError("a state names exactly one of: " + ", ".join(_FAMILIES), m_where)
-    kind = keys[0]
-    arg = raw_map[kind]
-    kw = _where(raw, kind, f"{path}.{kind}", m_where)
+
+def _mixed_state(arg, n_parties: int, path: str, kw: Where, dims_hint) -> State:
+    """A 'mix' declaration: a list of {weight, state}, weights adding up to 1."""
+    if not isinstance(arg, list) or not arg:
+        raise InputError("'mix' is a list of {weight: w, state: S}", kw)
+    parts = []
+    for i, item in enumerate(arg):
+        iw = _where(arg, i, f"{path}.mix[{i}]", kw)
+        if not isinstance(item, dict) or set(item) != {"weight", "state"}:
+            raise InputError("each part of a mixture is {weight: w, state: S}", iw)
+        w = parse_number(item["weight"], iw)
+        if not w.is_real or float(w) < 0:
+            raise InputError(f"a mixture weight must be a non-negative real, got {w}", iw)
+        parts.append((w, state_from_yaml(item["state"], n_parties, iw, dims_hint)))
+    total = sum(w for w, _ in parts)
+    if abs(float(total) - 1) > TOL:
+        raise InputError(f"mixture weights add up to {total}, not 1", kw)
+    if len({s.dims for _, s in parts}) != 1:
+        raise InputError("the parts of a mixture have different dimensions", kw)
+    return mixture([(w / total, s) for w, s in parts])
+
+
+def _family_state(kind: str, arg, raw_map: dict, n_parties: int, path: str, kw: Where, dims_hint) -> State:
+    """The state named by one family key (singlet, ghz, vector, density, mix, ...)."""
     dims_raw = raw_map.get("dims")
-    try:
-        if kind == "singlet":
-            st = singlet()
-        elif kind == "max_entangled":
-            d = 2 if arg is None else arg
-            if not isinstance(d, int) or d < 2:
-                raise InputError("max_entangled takes the local dimension (>= 2)", kw)
-            st = max_entangled(d, n_parties)
-        elif kind == "ghz":
-            d = 2 if arg is None else arg
-            if not isinstance(d, int) or d < 2:
-                raise InputError("ghz takes the local dimension (>= 2), e.g. 'ghz: 2'", kw)
-            st = ghz(n_parties, d)
-        elif kind == "w":
-            st = w_state(n_parties)
-        elif kind == "white":
-            dims = tuple(dims_raw) if dims_raw else (dims_hint or (2,) * n_parties)
-            st = white(dims)
-        elif kind == "product":
-            if not isinstance(arg, list) or len(arg) != n_parties:
-                raise InputError(f"'product' lists one vector per party ({n_parties})", kw)
-            vecs = [_vector(v, _where(arg, i, f"{path}.product", kw)) for i, v in enumerate(arg)]
-            v = reduce(lambda a, b: sympy.kronecker_product(a, b), vecs)
-            st = pure(v, tuple(x.rows for x in vecs), "product")
-        elif kind == "vector":
-            v = _vector(arg, kw)
-            st = pure(v, _split_dims(v.rows, n_parties, dims_raw, kw), "vector")
-        elif kind == "density":
-            m = _matrix(arg, kw)
-            num = _numeric(m)
-            _check_density(num, kw, "density")
-            tr = sympy.nsimplify(m.trace())
-            exact = m if tr == 1 else m / m.trace()
-            st = State(_split_dims(m.rows, n_parties, dims_raw, kw), num / np.trace(num).real, exact, "density matrix")
-        else:  # mix
-            if not isinstance(arg, list) or not arg:
-                raise InputError("'mix' is a list of {weight: w, state: S}", kw)
-            parts = []
-            for i, item in enumerate(arg):
-                iw = _where(arg, i, f"{path}.mix[{i}]", kw)
-                if not isinstance(item, dict) or set(item) != {"weight", "state"}:
-                    raise InputError("each part of a mixture is {weight: w, state: S}", iw)
-                w = parse_number(item["weight"], iw)
-                if not w.is_real or float(w) < 0:
-                    raise InputError(f"a mixture weight must be a non-negative real, got {w}", iw)
-                parts.append((w, state_from_yaml(item["state"], n_parties, iw, dims_hint)))
-            total = sum(w for w, _ in parts)
-            if abs(float(total) - 1) > TOL:
-                raise InputError(f"mixture weights add up to {total}, not 1", kw)
-            if len({s.dims for _, s in parts}) != 1:
-                raise InputError("the parts of a mixture have different dimensions", kw)
-            st = mixture([(w / total, s) for w, s in parts])
-    except ValueError as exc:
-        raise InputError(str(exc), kw) from None
-    if len(st.dims) != n_parties:
-        raise InputError(f"the state has {len(st.dims)} subsystems, the scenario {n_parties} parties", kw)
+    if kind == "singlet":
+        return singlet()
+    if kind == "max_entangled":
+        return max_entangled(_dimension_arg(arg, "max_entangled", kw), n_parties)
+    if kind == "ghz":
+        return ghz(n_parties, _dimension_arg(arg, "ghz", kw))
+    if kind == "w":
+        return w_state(n_parties)
+    if kind == "white":
+        return white(tuple(dims_raw) if dims_raw else (dims_hint or (2,) * n_parties))
+    if kind == "product":
+        if not isinstance(arg, list) or len(arg) != n_parties:
+            raise InputError(f"'product' lists one vector per party ({n_parties})", kw)
+        vecs = [_vector(v, _where(arg, i, f"{path}.product", kw)) for i, v in enumerate(arg)]
+        v = reduce(lambda a, b: sympy.kronecker_product(a, b), vecs)
+        return pure(v, tuple(x.rows for x in vecs), "product")
+    if kind == "vector":
+        v = _vector(arg, kw)
+        return pure(v, _split_dims(v.rows, n_parties, dims_raw, kw), "vector")
+    if kind == "density":
+        m = _matrix(arg, kw)
+        num = _numeric(m)
+        _check_density(num, kw, "density")
+        exact = m if sympy.nsimplify(m.trace()) == 1 else m / m.trace()
+        return State(_split_dims(m.rows, n_parties, dims_raw, kw), num / np.trace(num).real, exact, "density matrix")
+    return _mixed_state(arg, n_parties, path, kw, dims_hint)
+
+
+def _with_noise(st: State, raw, raw_map: dict, n_parties: int, path: str, m_where: Where) -> State:
+    """Apply 'visibility' (and 'noise', white by default) to a state."""
     if "visibility" in raw_map:
         vw = _where(raw, "visibility", f"{path}.visibility", m_where)
         v = parse_number(raw_map["visibility"], vw)
@@ -283,7 +263,37 @@ def state_from_yaml(raw, n_parties: int, where: Where, dims_hint: tuple[int, ...
         noise = state_from_yaml(raw_map.get("noise", "white"), n_parties, nw, st.dims)
         if noise.dims != st.dims:
             raise InputError(f"the noise has dimensions {noise.dims}, the state {st.dims}", nw)
-        st = mixture([(v, st), (1 - v, noise)], f"{v}*[{st.label}] + {1 - v}*[{noise.label}]")
-    elif "noise" in raw_map:
+        return mixture([(v, st), (1 - v, noise)], f"{v}*[{st.label}] + {1 - v}*[{noise.label}]")
+    if "noise" in raw_map:
         raise InputError("'noise' needs a 'visibility' (the weight of the state)", _where(raw, "noise", path, m_where))
     return st
+
+
+def state_from_yaml(raw, n_parties: int, where: Where, dims_hint: tuple[int, ...] | None = None) -> State:
+    """Read a state declaration (string family name or mapping)."""
+    path = where.key or "state"
+    if isinstance(raw, str):
+        raw_map = {raw: None}
+    elif isinstance(raw, dict):
+        raw_map = raw
+    else:
+        raise InputError("a state is a family name (singlet, ghz, w, white, max_entangled) or a mapping",
+                         where, "for example 'state: singlet' or 'state: {vector: [1, 0, 0, 1]}'")
+    keys = [k for k in raw_map if k in _FAMILIES]
+    unknown = [k for k in raw_map if k not in _FAMILIES and k not in _MODIFIERS]
+    if unknown:
+        from ..errors import suggest
+
+        raise InputError(f"unknown state key '{unknown[0]}'", _where(raw, unknown[0], f"{path}.{unknown[0]}", where),
+                         suggest(str(unknown[0]), _FAMILIES + _MODIFIERS))
+    if len(keys) != 1:
+        raise InputError("a state names exactly one of: " + ", ".join(_FAMILIES), where)
+    kind = keys[0]
+    kw = _where(raw, kind, f"{path}.{kind}", where)
+    try:
+        st = _family_state(kind, raw_map[kind], raw_map, n_parties, path, kw, dims_hint)
+    except ValueError as exc:
+        raise InputError(str(exc), kw) from None
+    if len(st.dims) != n_parties:
+        raise InputError(f"the state has {len(st.dims)} subsystems, the scenario {n_parties} parties", kw)
+    return _with_noise(st, raw, raw_map, n_parties, path, where)

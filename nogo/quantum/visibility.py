@@ -38,7 +38,7 @@ from ..model import LinearModel
 from .born import PREC, ball_behaviour, behaviour, behaviour_array, numeric_povms
 from .certify import ball_dot, collins_gisin_text
 from .experiment import Experiment
-from .numbers import arb_from_fraction, arb_text
+from .numbers import arb_from_fraction
 from .states import State, white
 
 
