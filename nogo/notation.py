@@ -167,7 +167,6 @@ def render_text(ineq: Inequality, notation: str | None = None) -> tuple[str, boo
             idx, xs, _ = k
             items = " ".join(party_setting(sc, sc.parties[i].name, x) for i, x in zip(idx, xs))
             parts.append((terms[k], f"<{items}>"))
-        del n
     elif notation == "collins-gisin":
         def basis(i, o):
             p = sc.parties[i]
