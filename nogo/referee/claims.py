@@ -142,67 +142,83 @@ def read_claims(path: str | Path) -> ClaimsFile:
     seen: set[str] = set()
     for i, item in enumerate(raw):
         w = raw.where(i, f"claims[{i}]") if isinstance(raw, YList) else Where(f)
-        if not isinstance(item, dict):
-            raise InputError("a claim is a mapping with 'id' and one kind key", w, "kinds: " + ", ".join(KINDS))
-        cid = str(item.get("id", "")).strip()
-        if not cid:
-            raise InputError("a claim needs an 'id'", w)
-        if cid in seen:
-            raise InputError(f"two claims have the id '{cid}'", w, "give each claim its own id")
-        seen.add(cid)
-        kinds = [k for k in item if k in KINDS]
-        extra = [k for k in item if k not in KINDS and k not in ("id", "where", "says", "theory")]
-        if extra:
-            k = extra[0]
-            raise InputError(f"claim '{cid}': unknown key '{k}'", item.where(k, f"claims.{cid}.{k}"),
-                             suggest(str(k), list(KINDS) + ["id", "where", "says", "theory"]))
-        if len(kinds) != 1:
-            raise InputError(f"claim '{cid}' must have exactly one kind key (it has {len(kinds)})", w,
-                             "one of: " + ", ".join(KINDS))
-        kind = kinds[0]
-        kw = item.where(kind, f"claims.{cid}.{kind}")
-        spec = item[kind]
-        if not isinstance(spec, dict):
-            raise InputError(f"claim '{cid}': '{kind}' takes a mapping", kw,
-                             "keys: " + ", ".join(KINDS[kind][0] + KINDS[kind][1]))
-        need, opt = KINDS[kind]
-        for k in need:
-            if k not in spec:
-                raise InputError(f"claim '{cid}': '{kind}' needs '{k}'", kw, "keys: " + ", ".join(need + opt))
-        for k in spec:
-            if k not in need + opt:
-                raise InputError(f"claim '{cid}': '{kind}' has no key '{k}'", spec.where(k, f"claims.{cid}.{kind}.{k}"),
-                                 suggest(str(k), need + opt) or "keys: " + ", ".join(need + opt))
-        theory = (_path(base, item["theory"], item.where("theory", f"claims.{cid}.theory"), "theory")
-                  if "theory" in item else None if "experiment" in spec else default_theory)
-        params = {str(k): _plain(v) for k, v in spec.items()}
-        at = (lambda k: spec.where(k, f"claims.{cid}.{kind}.{k}")) if isinstance(spec, YMap) else (lambda k: kw)
-        for k in ("experiment", "pattern"):
-            if k in params:
-                params[k] = _path(base, params[k], at(k), k)
-        if "time_limit" in params and (isinstance(params["time_limit"], bool)
-                                       or not isinstance(params["time_limit"], (int, float)) or params["time_limit"] <= 0):
-            raise InputError(f"claim '{cid}': 'time_limit' is a number of seconds > 0", at("time_limit"))
-        for k in ("value", "tolerance", "bound"):
-            if k in params:
-                params[k] = _number(params[k], at(k), k, positive=(k == "tolerance"))
-        for k in ("facets", "classes"):
-            if k in params and (isinstance(params[k], bool) or not isinstance(params[k], int) or params[k] < 0):
-                raise InputError(f"claim '{cid}': '{k}' must be a whole number", at(k))
-        if "facts" in params and (not isinstance(params["facts"], int) or params["facts"] < 1):
-            raise InputError(f"claim '{cid}': 'facts' must be a whole number >= 1", at("facts"))
-        if "versions" in params and params["versions"] not in VERSIONS:
-            raise InputError(f"claim '{cid}': 'versions' is one of {', '.join(VERSIONS)}", at("versions"),
-                             suggest(str(params["versions"]), VERSIONS))
-        if kind == "same_set" and (not isinstance(params["bundles"], list) or len(params["bundles"]) != 2):
-            raise InputError(f"claim '{cid}': 'bundles' lists exactly two bundles", at("bundles"))
-        if kind not in ("violates", "quantum_bound", "outside", "critical_visibility") and theory is None:
-            raise InputError(f"claim '{cid}' needs a theory file", w, "add 'theory: FILE' to the claim or the file")
-        c = Claim(cid, kind, str(item.get("where", "")), str(item.get("says", "")), params, theory,
-                  w.line, f)
-        c.params["_where"] = {k: (at(k).line if at(k) else None) for k in spec}
+        c = _read_claim(item, w, f, base, default_theory)
+        if c.id in seen:
+            raise InputError(f"two claims have the id '{c.id}'", w, "give each claim its own id")
+        seen.add(c.id)
         out.claims.append(c)
     return out
+
+
+def _claim_kind(item, cid: str, w: Where) -> str:
+    """The one kind key of a claim; unknown keys refused."""
+    kinds = [k for k in item if k in KINDS]
+    extra = [k for k in item if k not in KINDS and k not in ("id", "where", "says", "theory")]
+    if extra:
+        k = extra[0]
+        raise InputError(f"claim '{cid}': unknown key '{k}'", item.where(k, f"claims.{cid}.{k}"),
+                         suggest(str(k), list(KINDS) + ["id", "where", "says", "theory"]))
+    if len(kinds) != 1:
+        raise InputError(f"claim '{cid}' must have exactly one kind key (it has {len(kinds)})", w,
+                         "one of: " + ", ".join(KINDS))
+    return kinds[0]
+
+
+def _read_claim(item, w: Where, f: str, base: Path, default_theory) -> Claim:
+    """One claim: its id, its kind and the kind's parameters, checked."""
+    if not isinstance(item, dict):
+        raise InputError("a claim is a mapping with 'id' and one kind key", w, "kinds: " + ", ".join(KINDS))
+    cid = str(item.get("id", "")).strip()
+    if not cid:
+        raise InputError("a claim needs an 'id'", w)
+    kind = _claim_kind(item, cid, w)
+    kw = item.where(kind, f"claims.{cid}.{kind}")
+    spec = item[kind]
+    if not isinstance(spec, dict):
+        raise InputError(f"claim '{cid}': '{kind}' takes a mapping", kw,
+                         "keys: " + ", ".join(KINDS[kind][0] + KINDS[kind][1]))
+    need, opt = KINDS[kind]
+    for k in need:
+        if k not in spec:
+            raise InputError(f"claim '{cid}': '{kind}' needs '{k}'", kw, "keys: " + ", ".join(need + opt))
+    for k in spec:
+        if k not in need + opt:
+            raise InputError(f"claim '{cid}': '{kind}' has no key '{k}'", spec.where(k, f"claims.{cid}.{kind}.{k}"),
+                             suggest(str(k), need + opt) or "keys: " + ", ".join(need + opt))
+    theory = (_path(base, item["theory"], item.where("theory", f"claims.{cid}.theory"), "theory")
+              if "theory" in item else None if "experiment" in spec else default_theory)
+    at = (lambda k: spec.where(k, f"claims.{cid}.{kind}.{k}")) if isinstance(spec, YMap) else (lambda k: kw)
+    params = _claim_params(spec, cid, kind, base, at)
+    if kind not in ("violates", "quantum_bound", "outside", "critical_visibility") and theory is None:
+        raise InputError(f"claim '{cid}' needs a theory file", w, "add 'theory: FILE' to the claim or the file")
+    c = Claim(cid, kind, str(item.get("where", "")), str(item.get("says", "")), params, theory, w.line, f)
+    c.params["_where"] = {k: (at(k).line if at(k) else None) for k in spec}
+    return c
+
+
+def _claim_params(spec, cid: str, kind: str, base: Path, at) -> dict:
+    """A claim kind's parameters as plain values: paths resolved, numbers kept as exact text."""
+    params = {str(k): _plain(v) for k, v in spec.items()}
+    for k in ("experiment", "pattern"):
+        if k in params:
+            params[k] = _path(base, params[k], at(k), k)
+    if "time_limit" in params and (isinstance(params["time_limit"], bool)
+                                   or not isinstance(params["time_limit"], (int, float)) or params["time_limit"] <= 0):
+        raise InputError(f"claim '{cid}': 'time_limit' is a number of seconds > 0", at("time_limit"))
+    for k in ("value", "tolerance", "bound"):
+        if k in params:
+            params[k] = _number(params[k], at(k), k, positive=(k == "tolerance"))
+    for k in ("facets", "classes"):
+        if k in params and (isinstance(params[k], bool) or not isinstance(params[k], int) or params[k] < 0):
+            raise InputError(f"claim '{cid}': '{k}' must be a whole number", at(k))
+    if "facts" in params and (not isinstance(params["facts"], int) or params["facts"] < 1):
+        raise InputError(f"claim '{cid}': 'facts' must be a whole number >= 1", at("facts"))
+    if "versions" in params and params["versions"] not in VERSIONS:
+        raise InputError(f"claim '{cid}': 'versions' is one of {', '.join(VERSIONS)}", at("versions"),
+                         suggest(str(params["versions"]), VERSIONS))
+    if kind == "same_set" and (not isinstance(params["bundles"], list) or len(params["bundles"]) != 2):
+        raise InputError(f"claim '{cid}': 'bundles' lists exactly two bundles", at("bundles"))
+    return params
 
 
 def bundle_spec(raw) -> str | list[str]:

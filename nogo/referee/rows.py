@@ -159,10 +159,45 @@ def rebuild_mixture(theory, names: list[str]) -> OwnModel:
     simplices, whose extreme points are the deterministic assignments — and the mixture's set is the
     convex hull of the products of those (multilinearity).  Anything else raises NotRebuilt.
     """
-    from ..theory import Absolute, Counterfactual, Factorise, Hidden, Independent, Predetermined
-
     sc = theory.scenario
     pnames = [p.name for p in sc.parties]
+    indep, determined = _mixture_structure(theory, names, pnames)
+    settings = list(itertools.product(*(p.settings for p in sc.parties)))
+    outs = list(itertools.product(*(p.outcomes for p in sc.parties)))
+    coords = [(s, a) for s in settings for a in outs]
+    cindex = {c: i for i, c in enumerate(coords)}
+    # the settings each party's response may depend on
+    dep = {}
+    for p in pnames:
+        d = set(pnames) - indep[p]
+        if p in determined:
+            d &= determined[p]
+        dep[p] = [j for j, q2 in enumerate(pnames) if q2 in d]
+    per_party = []
+    for p in sc.parties:
+        keys = sorted({tuple(s[j] for j in dep[p.name]) for s in settings})
+        per_party.append([dict(zip(keys, vals)) for vals in itertools.product(p.outcomes, repeat=len(keys))])
+    columns, index, observe = [], {}, []
+    for combo in itertools.product(*per_party):
+        support = []
+        for s in settings:
+            a = tuple(f[tuple(s[j] for j in dep[p.name])] for f, p in zip(combo, sc.parties))
+            support.append(cindex[(s, a)])
+        key = tuple(sorted(support))
+        if key in index:
+            continue
+        index[key] = len(columns)
+        columns.append(key)
+        observe.append({i: Fraction(1) for i in key})
+    rows = [{j: Fraction(1) for j in range(len(columns))}]
+    return OwnModel([], columns, index, rows, [Fraction(1)], [], len(coords), coords, observe, "mixture")
+
+
+def _mixture_structure(theory, names: list[str], pnames: list[str]):
+    """Read the covered hidden-variable clauses: per party, the settings it is independent of
+    given λ, and the parties whose outcome is predetermined (with what it may depend on)."""
+    from ..theory import Absolute, Counterfactual, Factorise, Hidden, Independent, Predetermined
+
     hidden, free, factor, determined = set(), False, set(), {}
     indep: dict[str, set[str]] = {p: set() for p in pnames}
     for n in names:
@@ -184,9 +219,7 @@ def rebuild_mixture(theory, names: list[str]) -> OwnModel:
                     continue
                 raise NotRebuilt(f"'{n}': a clause on the mixture is not rebuilt here")
             if isinstance(c, Independent):
-                ev = [e for e in c.events if e in pnames]
-                if [e for e in c.events if e not in pnames and e not in hidden]:
-                    pass  # absent events drop out (rule of projection)
+                ev = [e for e in c.events if e in pnames]  # absent events drop out (rule of projection)
                 if len(ev) != 1:
                     raise NotRebuilt(f"'{n}': independence of several parties' outcomes given λ is not rebuilt here")
                 indep[ev[0]] |= set(c.of) - {ev[0]}
@@ -208,35 +241,7 @@ def rebuild_mixture(theory, names: list[str]) -> OwnModel:
     for p in pnames:
         if p not in factor and p not in determined:
             raise NotRebuilt(f"party {p}'s response is neither its own factor nor predetermined: not rebuilt here")
-    settings = list(itertools.product(*(p.settings for p in sc.parties)))
-    outs = list(itertools.product(*(p.outcomes for p in sc.parties)))
-    coords = [(s, a) for s in settings for a in outs]
-    cindex = {c: i for i, c in enumerate(coords)}
-    # the settings each party's response may depend on
-    dep = {}
-    for i, p in enumerate(pnames):
-        d = set(pnames) - indep[p]
-        if p in determined:
-            d &= determined[p]
-        dep[p] = [j for j, q2 in enumerate(pnames) if q2 in d]
-    per_party = []
-    for i, p in enumerate(sc.parties):
-        keys = sorted({tuple(s[j] for j in dep[p.name]) for s in settings})
-        per_party.append([dict(zip(keys, vals)) for vals in itertools.product(p.outcomes, repeat=len(keys))])
-    columns, index, observe = [], {}, []
-    for combo in itertools.product(*per_party):
-        support = []
-        for s in settings:
-            a = tuple(f[tuple(s[j] for j in dep[p.name])] for f, p in zip(combo, sc.parties))
-            support.append(cindex[(s, a)])
-        key = tuple(sorted(support))
-        if key in index:
-            continue
-        index[key] = len(columns)
-        columns.append(key)
-        observe.append({i: Fraction(1) for i in key})
-    rows = [{j: Fraction(1) for j in range(len(columns))}]
-    return OwnModel([], columns, index, rows, [Fraction(1)], [], len(coords), coords, observe, "mixture")
+    return indep, determined
 
 
 def _outcome_set(raw, scenario, outs_all):
