@@ -196,6 +196,15 @@ class IntCSR:
                 np.cumsum(np.bincount(r, minlength=m), out=indptr[1:])
                 return cls(indptr, c, v, (m, n))
         key = r * max(n, 1) + c
+        if v.dtype != object and 0 < m * n <= 8 * len(key) + 4096 and max_abs(v) * len(key) < 2 ** 52:
+            # dense enough: sum repeated positions by counting (float sums of integers below 2**52 are exact)
+            dense = np.rint(np.bincount(key, weights=v.astype(float), minlength=m * n)).astype(np.int64)
+            key = np.flatnonzero(dense)
+            v = dense[key]
+            rows = key // n
+            indptr = np.zeros(m + 1, dtype=np.int64)
+            np.cumsum(np.bincount(rows, minlength=m), out=indptr[1:])
+            return cls(indptr, key - rows * n, v, (m, n))
         if len(key) > 1 and not bool(np.all(key[1:] >= key[:-1])):
             order = np.argsort(key)
             key, v = key[order], v[order]
@@ -301,6 +310,10 @@ class IntCSR:
     def sum_cols(self, cls, ncls: int) -> "IntCSR":
         """A @ M with M[j, cls[j]] = 1: columns summed by class."""
         return IntCSR.from_coo(self.row_ids(), np.asarray(cls)[self.indices], self.data, (self.shape[0], ncls))
+
+    def sum_rows(self, cls, ncls: int) -> "IntCSR":
+        """M @ A with M[cls[i], i] = 1: rows summed by class."""
+        return IntCSR.from_coo(np.asarray(cls)[self.row_ids()], self.indices, self.data, (ncls, self.shape[1]))
 
     def toarray(self) -> np.ndarray:
         out = np.zeros(self.shape, dtype=np.int64)

@@ -285,9 +285,19 @@ def spanning_forest(n: int, u: np.ndarray, v: np.ndarray) -> tuple[np.ndarray, n
     return comp, forest
 
 
-def _merge(model: LinearModel) -> MergeStep | None:
+def _equal_rows(model: LinearModel):
+    """The rows q_j − q_k = 0: (u, v, row, alpha, the other rows, their ids, classes or None), or None.
+
+    A matrix that knows its structure (:class:`nogo.linear.CompiledRows`)
+    names them without a scan and without being built; otherwise rows with
+    two entries of opposite sign, size 1 and right side 0 are picked out.
+    """
     a = model.arrays
     A = a.A
+    if getattr(type(A), "equal_pairs", None) is not None:
+        got = A.equal_pairs()
+        if got is not None:
+            return got
     m, n = A.shape
     nnz = A.row_nnz()
     two = np.flatnonzero((nnz == 2) & (a.rhs_num == 0))
@@ -300,11 +310,14 @@ def _merge(model: LinearModel) -> MergeStep | None:
     if len(rows) == 0:
         return None
     p0 = A.indptr[rows]
-    u, v = A.indices[p0], A.indices[p0 + 1]
-    comp, forest = spanning_forest(n, u, v)
-    fr = rows[forest]
-    fu, fv, falpha = u[forest], v[forest], A.data[A.indptr[fr]]
-    # classes numbered in the order of their first member
+    is_merge = np.zeros(m, dtype=bool)
+    is_merge[rows] = True
+    other = np.flatnonzero(~is_merge)
+    return A.indices[p0], A.indices[p0 + 1], rows, A.data[p0], A.take_rows(other), other, None
+
+
+def _classes(n: int, comp: np.ndarray):
+    """Classes numbered in the order of their first member: (class per column, first member, size)."""
     firsts = np.full(n, n, dtype=np.int64)
     np.minimum.at(firsts, comp, np.arange(n, dtype=np.int64))
     roots = np.flatnonzero(firsts < n)
@@ -313,13 +326,25 @@ def _merge(model: LinearModel) -> MergeStep | None:
     rank[roots[order]] = np.arange(len(roots))
     cls = rank[comp]
     ncls = len(roots)
-    firsts = firsts[roots[order]]
-    size = np.bincount(cls, minlength=ncls)
+    return cls, firsts[roots[order]], np.bincount(cls, minlength=ncls)
+
+
+def _merge(model: LinearModel) -> MergeStep | None:
+    got = _equal_rows(model)
+    if got is None:
+        return None
+    u, v, rows, alpha, B_other, other, comp = got
+    a = model.arrays
+    m, n = a.shape
+    if comp is None:
+        comp, forest = spanning_forest(n, u, v)
+        fu, fv, fr, falpha = u[forest], v[forest], rows[forest], alpha[forest]
+    else:  # the structure says the rows already form a forest
+        fu, fv, fr, falpha = u, v, rows, alpha
+    cls, firsts, size = _classes(n, comp)
+    ncls = len(firsts)
     # the other rows, with columns summed per class
-    is_merge = np.zeros(m, dtype=bool)
-    is_merge[rows] = True
-    other = np.flatnonzero(~is_merge)
-    B = A.take_rows(other).sum_cols(cls, ncls)
+    B = B_other.sum_cols(cls, ncls)
     rn, rd, den = a.rhs_num[other], a.rhs_den[other], a.row_den[other]
     bnnz = B.row_nnz()
     keep = ~((bnnz == 0) & (rn == 0))  # 0 = 0
@@ -341,7 +366,7 @@ def _merge(model: LinearModel) -> MergeStep | None:
     kept_local = np.flatnonzero(keep)
     kept_rows = other[kept_local]
     B = B.take_rows(kept_local)
-    O = a.O.T.sum_cols(cls, ncls).T
+    O = a.O.sum_rows(cls, ncls)
     arrays = ModelArrays(B, den[kept_local], rn[kept_local], rd[kept_local], O, a.obs_den)
     dup = len(other) - len(kept_local)
     summary = (f"merge: {n - ncls} columns forced equal to others by {len(rows)} rows q_j = q_k "
