@@ -25,6 +25,7 @@ from typing import TYPE_CHECKING
 
 from .errors import InputError
 from .inequality import Coord, Inequality
+from .lazyseq import LazySeq
 from .model import LinearModel, RowSource
 
 if TYPE_CHECKING:  # numpy, flint and HiGHS load only when a decision is made (nogo --help stays fast)
@@ -44,7 +45,7 @@ class WeightedRow:
     weight: Fraction
 
 
-class WeightedRows(Sequence):
+class WeightedRows(LazySeq):
     """The rows of a certificate with a non-zero multiplier, written out on demand."""
 
     def __init__(self, sources: Sequence, duals: ExactVector):
@@ -57,13 +58,6 @@ class WeightedRows(Sequence):
     def _one(self, k: int) -> WeightedRow:
         i = int(self.index[k])
         return WeightedRow(self.sources[i], self.duals[i])
-
-    def __getitem__(self, k):
-        if isinstance(k, slice):
-            return [self._one(i) for i in range(*k.indices(len(self)))]
-        if k < 0:
-            k += len(self)
-        return self._one(k)
 
 
 @dataclass
@@ -85,7 +79,7 @@ class Certificate:
         return out
 
 
-class JointEntries(Sequence):
+class JointEntries(LazySeq):
     """Non-zero entries of a model point, described on demand: (name, weight)."""
 
     def __init__(self, model: LinearModel, point: ExactVector):
@@ -98,13 +92,6 @@ class JointEntries(Sequence):
     def _one(self, k: int) -> tuple[str, Fraction]:
         j = int(self.index[k])
         return self.columns[j].describe(self.scenario), self.point[j]
-
-    def __getitem__(self, k):
-        if isinstance(k, slice):
-            return [self._one(i) for i in range(*k.indices(len(self)))]
-        if k < 0:
-            k += len(self)
-        return self._one(k)
 
 
 @dataclass
@@ -136,14 +123,15 @@ class CheckResult:
         return self.verdict == "implied"
 
 
-def _certificate(model: LinearModel, cost, duals) -> Certificate:
+def _certificate(model: LinearModel, cost, duals, positive: int | None = None) -> Certificate:
+    """The certificate of checked duals (*positive*: their count of reduced costs > 0, when the check gave it)."""
     from .exact import dual_bound, reduced_cost_vector
     from .intarith import ExactVector
 
     y = duals if isinstance(duals, ExactVector) else ExactVector.from_fractions(list(duals))
-    r = reduced_cost_vector(model, cost, y)
-    pos = int((r.num > 0).sum())
-    return Certificate(WeightedRows(model.sources, y), pos, dual_bound(model, y), y)
+    if positive is None:
+        positive = int((reduced_cost_vector(model, cost, y).num > 0).sum())
+    return Certificate(WeightedRows(model.sources, y), positive, dual_bound(model, y), y)
 
 
 def _counterexample(model: LinearModel, cost, point) -> Counterexample:
@@ -367,7 +355,7 @@ def _float_vec(v):
 
 def _solve(model: LinearModel, cost: ExactVector, reducer) -> tuple[ExactOptimum, list[str], tuple[int, int], list[str]]:
     """Exact optimum over *model*; through the reductions when they shrink it (evidence lifted and checked here)."""
-    from .exact import ExactFailure, ExactOptimum, check_duals, check_point, dot, dual_bound, exact_optimum
+    from .exact import ExactFailure, ExactOptimum, check_point, dot, dual_bound, duals_check, exact_optimum
     notes: list[str] = []
     if reducer is not False:
         from .reduce import reduce_model
@@ -382,12 +370,14 @@ def _solve(model: LinearModel, cost: ExactVector, reducer) -> tuple[ExactOptimum
             if ro is not None and ro.duals is not None:
                 x = red.lift_point(ro.point)
                 y = red.lift_duals(ro.duals, cost)
-                bad = check_point(model, x) or check_duals(model, cost, y)
+                bad = check_point(model, x)
+                if bad is None:
+                    bad, positive = duals_check(model, cost, y)
                 if bad is None:
                     v, b = dot(cost, x), dual_bound(model, y)
                     if v == b:
-                        return (ExactOptimum(v, x, y, ro.method + "; lifted to the unreduced model and checked there"),
-                                red.summary(), red.model.shape, notes)
+                        return (ExactOptimum(v, x, y, ro.method + "; lifted to the unreduced model and checked there",
+                                             positive), red.summary(), red.model.shape, notes)
                     bad = f"lifted point gives {v}, lifted multipliers {b}"
             if ro is not None:
                 notes.append(f"the reduced model's evidence failed its exact check on the unreduced model ({bad}); "
@@ -418,7 +408,7 @@ def decide(model: LinearModel, ineq: Inequality, guard: bool = True, reducer=Non
     implied = opt.value <= ineq.bound
     cert = ce = None
     if opt.duals is not None:
-        cert = _certificate(model, cost, opt.duals) if implied else None
+        cert = _certificate(model, cost, opt.duals, opt.positive) if implied else None
     ce = _counterexample(model, cost, opt.point) if not implied else None
     method = opt.method
     if implied and cert is None:

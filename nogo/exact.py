@@ -41,6 +41,7 @@ class ExactOptimum:
     point: ExactVector  # exact, feasible (checked)
     duals: ExactVector | None  # exact, dual feasible (checked); None only from the z3 route
     method: str
+    positive: int | None = None  # columns with reduced cost > 0 under these duals (from their check)
 
 
 class ExactFailure(RuntimeError):
@@ -91,15 +92,20 @@ def reduced_cost_vector(model: LinearModel, cost, duals) -> ExactVector:
 
 
 def check_duals(model: LinearModel, cost, duals) -> str | None:
+    return duals_check(model, cost, duals)[0]
+
+
+def duals_check(model: LinearModel, cost, duals) -> tuple[str | None, int]:
+    """(None when Aᵀy >= c holds exactly, else what fails; how many columns have reduced cost > 0)."""
     y = _vec(duals)
     if len(y) != model.shape[0]:
-        return "wrong length"
+        return "wrong length", 0
     r = reduced_cost_vector(model, cost, y)
     bad = np.flatnonzero(r.num < 0)
     if len(bad):
         j = int(bad[0])
-        return f"column {model.columns[j].describe(model.scenario)} has reduced cost {r[j]} < 0"
-    return None
+        return f"column {model.columns[j].describe(model.scenario)} has reduced cost {r[j]} < 0", 0
+    return None, int((r.num > 0).sum())
 
 
 def dual_bound(model: LinearModel, duals) -> Fraction:
@@ -218,8 +224,11 @@ def exact_optimum(model: LinearModel, cost, ans=None) -> ExactOptimum:
             continue
         v = dot(cost, x)
         for y in ycands:
-            if dual_bound(model, y) == v and check_duals(model, cost, y) is None:
-                return ExactOptimum(v, x, y, "float optimum rounded to small denominators, checked exactly")
+            if dual_bound(model, y) == v:
+                bad, positive = duals_check(model, cost, y)
+                if bad is None:
+                    return ExactOptimum(v, x, y, "float optimum rounded to small denominators, checked exactly",
+                                        positive)
     got = _from_basis(model, cost, ans)
     if got is not None:
         x, y = got

@@ -196,7 +196,7 @@ class IntCSR:
                 np.cumsum(np.bincount(r, minlength=m), out=indptr[1:])
                 return cls(indptr, c, v, (m, n))
         key = r * max(n, 1) + c
-        if v.dtype != object and 0 < m * n <= 8 * len(key) + 4096 and max_abs(v) * len(key) < 2 ** 52:
+        if v.dtype != object and 0 < m * n <= 2 * len(key) + 4096 and max_abs(v) * len(key) < 2 ** 52:
             # dense enough: sum repeated positions by counting (float sums of integers below 2**52 are exact)
             dense = np.rint(np.bincount(key, weights=v.astype(float), minlength=m * n)).astype(np.int64)
             key = np.flatnonzero(dense)
@@ -307,13 +307,41 @@ class IntCSR:
         np.cumsum(np.bincount(rid, minlength=self.shape[0]), out=indptr[1:])
         return IntCSR(indptr, new[self.indices[sel]], self.data[sel], (self.shape[0], len(keep)))
 
-    def sum_cols(self, cls, ncls: int) -> "IntCSR":
-        """A @ M with M[j, cls[j]] = 1: columns summed by class."""
-        return IntCSR.from_coo(self.row_ids(), np.asarray(cls)[self.indices], self.data, (self.shape[0], ncls))
+    def sum_cols(self, cls, ncls: int, chunk: int = 1 << 20) -> "IntCSR":
+        """A @ M with M[j, cls[j]] = 1: columns summed by class (rows in chunks of about *chunk* entries)."""
+        cls = np.asarray(cls)
+        m = self.shape[0]
+        if self.nnz <= chunk or m <= 1:
+            return IntCSR.from_coo(self.row_ids(), cls[self.indices], self.data, (m, ncls))
+        pieces, r0 = [], 0
+        while r0 < m:
+            r1 = min(m, max(r0 + 1, int(np.searchsorted(self.indptr, self.indptr[r0] + chunk, side="right")) - 1))
+            a, b = int(self.indptr[r0]), int(self.indptr[r1])
+            part = IntCSR(self.indptr[r0:r1 + 1] - a, self.indices[a:b], self.data[a:b], (r1 - r0, self.shape[1]))
+            pieces.append(IntCSR.from_coo(part.row_ids(), cls[part.indices], part.data, (r1 - r0, ncls)))
+            r0 = r1
+        return IntCSR.vstack(pieces, ncls)
+
+    @staticmethod
+    def vstack(pieces, n: int) -> "IntCSR":
+        indptr = [np.zeros(1, dtype=np.int64)]
+        off = 0
+        for p in pieces:
+            indptr.append(p.indptr[1:] + off)
+            off += p.nnz
+        return IntCSR(np.concatenate(indptr), np.concatenate([p.indices for p in pieces]),
+                      np.concatenate([p.data for p in pieces]), (sum(p.shape[0] for p in pieces), n))
 
     def sum_rows(self, cls, ncls: int) -> "IntCSR":
-        """M @ A with M[cls[i], i] = 1: rows summed by class."""
-        return IntCSR.from_coo(np.asarray(cls)[self.row_ids()], self.indices, self.data, (ncls, self.shape[1]))
+        """M @ A with M[cls[i], i] = 1: rows summed by class.
+
+        Rows are first put in class order by a stable sort, so that when each
+        class's members already list their entries in order (the observation
+        map: members at different settings tuples) nothing else is sorted.
+        """
+        rc = np.asarray(cls)[self.row_ids()]
+        order = np.argsort(rc, kind="stable")
+        return IntCSR.from_coo(rc[order], self.indices[order], self.data[order], (ncls, self.shape[1]))
 
     def toarray(self) -> np.ndarray:
         out = np.zeros(self.shape, dtype=np.int64)

@@ -249,6 +249,12 @@ class CompiledRows:
         from .intarith import IntCSR
 
         new_id = self.new_ids() if new_id is None else new_id
+        if set(which) == {0}:  # normalisation alone: row s holds the columns of s, already a CSR
+            nz = np.flatnonzero(self.size > 0)
+            n = self.shape[1]
+            indptr = np.concatenate([self.start[:-1][nz], [n]]).astype(np.int64)
+            return IntCSR(indptr, np.arange(n, dtype=np.int64), np.ones(n, dtype=np.int64), (len(nz), n)), \
+                new_id[nz]
         r, c, v = self._coo(set(which))
         rid = new_id[r]
         mark = np.zeros(self.shape[0], dtype=bool)
@@ -341,12 +347,14 @@ class CompiledRows:
                 jb_p.append(jb)
                 row_p.append(new_id[row0 + b.key[ra]])
         ja, jb, rows = np.concatenate(ja_p), np.concatenate(jb_p), np.concatenate(row_p)
+        del ja_p, jb_p, row_p
         u, v = np.minimum(ja, jb), np.maximum(ja, jb)
-        alpha = np.where(u == ja, 1, -1).astype(np.int64)
+        alpha = np.where(u == ja, 1, -1).astype(np.int8)
         comp = None
         if len(pw) == 1:  # base(base(s)) = base(s): every edge joins a column to its base column
             comp = np.arange(self.shape[1], dtype=np.int64)
             comp[ja] = jb
+        del ja, jb
         other, ids = self.rows_of([k for k in range(len(self.blocks)) if k not in pw], new_id)
         return u, v, rows, alpha, other, ids, comp
 

@@ -37,19 +37,21 @@ Andersen, "Presolving in linear programming", Math. Prog. 71, 221–245
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from fractions import Fraction
 from typing import Sequence
 
 import numpy as np
 
-from .intarith import ExactVector, as_int, lcm_all, mul
+from .intarith import ExactVector, as_int, lcm_all, matvec, mul
+from .lazyseq import LazySeq
 from .model import Column, LinearModel, ModelArrays
 
 
 # -- views of the reduced model's names --------------------------------------------
 @dataclass
-class Subset(Sequence):
+class Subset(LazySeq):
     """The entries ``keep`` of a parent sequence (kept rows' sources, kept columns)."""
 
     parent: Sequence
@@ -58,14 +60,12 @@ class Subset(Sequence):
     def __len__(self) -> int:
         return len(self.keep)
 
-    def __getitem__(self, i):
-        if isinstance(i, slice):
-            return [self.parent[int(k)] for k in self.keep[i]]
+    def _one(self, i: int):
         return self.parent[int(self.keep[i])]
 
 
 @dataclass
-class MergedColumns(Sequence):
+class MergedColumns(LazySeq):
     """A reduced column: a class of columns of the parent forced equal."""
 
     parent: Sequence
@@ -83,11 +83,6 @@ class MergedColumns(Sequence):
             return base
         return Column(base.settings, base.events, base.values,
                       f"{base.describe(self.scenario)} and {n - 1} column(s) forced equal to it")
-
-    def __getitem__(self, i):
-        if isinstance(i, slice):
-            return [self._one(k) for k in range(*i.indices(len(self)))]
-        return self._one(i)
 
 
 def _derived(model: LinearModel, arrays: ModelArrays, columns, sources, note: str) -> LinearModel:
@@ -158,28 +153,39 @@ class MergeStep(Step):
         from .intarith import SAFE, max_abs
         small = T.dtype != object and max_abs(T) * max(1, len(T)) * int(self.before.arrays.row_den.max()) < SAFE
         S = T.copy() if small else T.astype(object)
-        den = self.before.arrays.row_den
+        del T
+        den = np.asarray(self.before.arrays.row_den)
+        unit = int(den.max(initial=1)) == 1 and int(den.min(initial=1)) == 1
         z = np.zeros(len(u), dtype=np.int64 if small else object)
-        deg = np.bincount(np.concatenate([u, v]), minlength=len(S)).astype(np.int64)
+        deg = np.bincount(u, minlength=len(S)) + np.bincount(v, minlength=len(S))
         alive = np.ones(len(u), dtype=bool)
-        while alive.any():
-            ids = np.flatnonzero(alive)
-            au, av = u[ids], v[ids]
+        ids = None  # None: every edge is still alive (no copies of u, v in the first round)
+        while True:  # peel leaves: a leaf's whole reduced cost goes onto its edge, the rest to its parent
+            au, av = (u, v) if ids is None else (u[ids], v[ids])
             lu, lv = deg[au] == 1, deg[av] == 1
             take_u = lu & (~lv | (au > av))
-            take_v = lv & ~take_u
-            sel = take_u | take_v
+            sel = take_u | (lv & ~take_u)
+            del lu, lv
             if not sel.any():
                 raise RuntimeError("merge rows do not form a forest")
-            e = ids[sel]
-            j = np.where(take_u[sel], au[sel], av[sel])
-            p = np.where(take_u[sel], av[sel], au[sel])
-            sign = np.where(take_u[sel], -1, 1) * alpha[e]  # z = -S_j d a (j = u) or +S_j d a (j = v)
-            z[e] = S[j] * (sign * den[r[e]] if small else (sign * den[r[e]]).astype(object))
+            e = np.flatnonzero(sel) if ids is None else ids[sel]
+            tu = take_u[sel]
+            j = np.where(tu, au[sel], av[sel])
+            p = np.where(tu, av[sel], au[sel])
+            del au, av, take_u, sel
+            sign = np.where(tu, -1, 1) * alpha[e]  # z = -S_j d a (j = u) or +S_j d a (j = v)
+            if not unit:
+                sign = sign * den[r[e]]
+            z[e] = S[j] * (sign if small else sign.astype(object))
             np.add.at(S, p, S[j])
             deg[j] = 0
             np.subtract.at(deg, p, 1)
             alive[e] = False
+            del e, tu, j, p, sign
+            if not alive.any():
+                break
+            ids = np.flatnonzero(alive)
+        del S, deg, alive
         num = mul(yb, G // y.den)
         if num.dtype != object and z.dtype != object:
             num = num.copy()
@@ -238,6 +244,93 @@ class ZeroStep(Step):
         for i, f in mult.items():
             num[i] = f.numerator * (D // f.denominator)
         return ExactVector(as_int(num), D)
+
+
+@dataclass
+class FixedStep(Step):
+    kept_cols: np.ndarray = None
+    kept_rows: np.ndarray = None
+    fixed_cols: np.ndarray = None  # columns fixed by a row with one entry ...
+    fixing_rows: np.ndarray = None  # ... this row (one per fixed column)
+    values: ExactVector = None  # ... to these values
+
+    def lift_point(self, x):
+        n = len(self.before.columns)
+        D = x.den * self.values.den // math.gcd(x.den, self.values.den)
+        out = np.zeros(n, dtype=object)
+        out[self.kept_cols] = mul(x.num, D // x.den)
+        out[self.fixed_cols] = mul(self.values.num, D // self.values.den)
+        return ExactVector(as_int(out), D)
+
+    def reduce_cost(self, cost):
+        return ExactVector(cost.num[self.kept_cols], cost.den)  # the fixed columns add a constant
+
+    def lift_duals(self, y, cost):
+        """The fixing row of column j gets the multiplier that makes j's reduced cost 0 (w = −t_j·den / a)."""
+        a = self.before.arrays
+        yb = np.zeros(a.shape[0], dtype=object if y.num.dtype == object else np.int64)
+        yb[self.kept_rows] = y.num
+        yk = ExactVector(yb, y.den)
+        T, G = reduced_cost_numerators(self.before, cost, yk)  # over G
+        t = T[self.fixed_cols].astype(object)
+        p0 = a.A.indptr[self.fixing_rows]
+        coef = a.A.data[p0].astype(object)
+        den = np.asarray(a.row_den)[self.fixing_rows].astype(object)
+        w_num, w_den = -t * den, coef * G  # w = w_num / w_den, exactly
+        sign = np.where(w_den < 0, -1, 1).astype(object)
+        w_num, w_den = w_num * sign, w_den * sign
+        D = lcm_all(set(w_den.tolist()) | {y.den})
+        num = mul(yb, D // y.den).astype(object)
+        num[self.fixing_rows] = w_num * (D // w_den)
+        return ExactVector(as_int(num), D)
+
+
+def _fixed(model: LinearModel) -> FixedStep | None:
+    """Rows with one entry and a non-zero right side fix their column: it leaves, the other rows' sides move."""
+    a = model.arrays
+    A = a.A
+    m, n = A.shape
+    single = np.flatnonzero((A.row_nnz() == 1) & (a.rhs_num != 0))
+    if len(single) == 0:
+        return None
+    p0 = A.indptr[single]
+    col = A.indices[p0]
+    # value = rhs * den / entry; a negative value means no point at all: left for the LP to report
+    num = a.rhs_num[single].astype(object) * np.asarray(a.row_den)[single].astype(object)
+    dd = a.rhs_den[single].astype(object) * A.data[p0].astype(object)
+    ok = (num * dd) > 0
+    col, single, num, dd = col[ok], single[ok], num[ok], dd[ok]
+    col, first = np.unique(col, return_index=True)  # one fixing row per column
+    if len(col) == 0:
+        return None
+    single = single[first]
+    vals = ExactVector.from_fractions([Fraction(int(p), int(q)) for p, q in zip(num[first], dd[first])])
+    is_fixed = np.zeros(n, dtype=bool)
+    is_fixed[col] = True
+    kept_cols = np.flatnonzero(~is_fixed)
+    # new right sides: rhs_i − (A[i, fixed] · v) / den_i, exactly, for the rows that meet a fixed column
+    Vfull = np.zeros(n, dtype=object)
+    Vfull[col] = vals.num
+    AV = matvec(A, as_int(Vfull))  # over vals.den
+    rest = np.setdiff1d(np.arange(m), single)
+    B = A.take_rows(rest).take_cols(kept_cols)
+    rn, rd = a.rhs_num[rest].astype(object), a.rhs_den[rest].astype(object)
+    den = np.asarray(a.row_den)[rest].astype(object)
+    av = AV[rest].astype(object)
+    new_n = rn * den * vals.den - rd * av
+    new_d = rd * den * vals.den
+    g = np.array([math.gcd(int(x), int(y)) for x, y in zip(new_n, new_d)], dtype=object)
+    new_n, new_d = new_n // g, new_d // g
+    keep = ~((B.row_nnz() == 0) & (new_n == 0))  # 0 = 0
+    kept_rows = rest[keep]
+    B = B.take_rows(np.flatnonzero(keep))
+    arrays = ModelArrays(B, as_int(np.asarray(a.row_den)[kept_rows]), as_int(new_n[keep]), as_int(new_d[keep]),
+                         a.O.take_rows(kept_cols), a.obs_den)
+    summary = (f"fixed: {len(col)} columns fixed to non-zero values by rows with one entry "
+               f"({n} -> {len(kept_cols)} columns, {m} -> {len(kept_rows)} rows)")
+    after = _derived(model, arrays, Subset(model.columns, kept_cols), Subset(model.sources, kept_rows), summary)
+    return FixedStep("fixed", summary, model, after, kept_cols=kept_cols, kept_rows=kept_rows, fixed_cols=col,
+                     fixing_rows=single, values=vals)
 
 
 def spanning_forest(n: int, u: np.ndarray, v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -374,7 +467,8 @@ def _merge(model: LinearModel) -> MergeStep | None:
     after = _derived(model, arrays, MergedColumns(model.columns, model.scenario, firsts, size),
                      Subset(model.sources, kept_rows), summary)
     return MergeStep("merge", summary, model, after, cls=cls, kept_rows=kept_rows,
-                     edges=(fu.astype(np.int64), fv.astype(np.int64), fr, falpha.astype(np.int64)))
+                     edges=(fu.astype(np.int64, copy=False), fv.astype(np.int64, copy=False), fr,
+                            falpha.astype(np.int8, copy=False)))
 
 
 def _float_dot(B, w: np.ndarray) -> np.ndarray:
@@ -424,7 +518,7 @@ def _zero(model: LinearModel) -> ZeroStep | None:
     return ZeroStep("zero", summary, model, after, kept_cols=kept_cols, kept_rows=kept_rows, zero_rows=zr)
 
 
-STEPS = (_merge, _zero)
+STEPS = (_merge, _zero, _fixed)
 
 
 # -- the chain -------------------------------------------------------------------
