@@ -374,7 +374,7 @@ class CompiledRows:
         bi = np.searchsorted(first, pos, side="right") - 1
         s = np.zeros(len(pos), dtype=np.int64)
         key = np.zeros(len(pos), dtype=np.int64)
-        for k in np.unique(bi).tolist():
+        for k in np.flatnonzero(np.bincount(bi, minlength=len(self.blocks))).tolist():  # (np.unique loads numpy.ma)
             sel = bi == k
             b = self.blocks[k]
             local = pos[sel] - b.offset

@@ -300,7 +300,11 @@ def _fixed(model: LinearModel) -> FixedStep | None:
     dd = a.rhs_den[single].astype(object) * A.data[p0].astype(object)
     ok = (num * dd) > 0
     col, single, num, dd = col[ok], single[ok], num[ok], dd[ok]
-    col, first = np.unique(col, return_index=True)  # one fixing row per column
+    order = np.argsort(col, kind="stable")  # one fixing row per column: its first
+    lead = np.ones(len(order), dtype=bool)
+    lead[1:] = col[order][1:] != col[order][:-1]
+    first = order[lead]
+    col = col[first]
     if len(col) == 0:
         return None
     single = single[first]
@@ -312,7 +316,9 @@ def _fixed(model: LinearModel) -> FixedStep | None:
     Vfull = np.zeros(n, dtype=object)
     Vfull[col] = vals.num
     AV = matvec(A, as_int(Vfull))  # over vals.den
-    rest = np.setdiff1d(np.arange(m), single)
+    is_single = np.zeros(m, dtype=bool)
+    is_single[single] = True
+    rest = np.flatnonzero(~is_single)
     B = A.take_rows(rest).take_cols(kept_cols)
     rn, rd = a.rhs_num[rest].astype(object), a.rhs_den[rest].astype(object)
     den = np.asarray(a.row_den)[rest].astype(object)
