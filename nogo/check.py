@@ -220,17 +220,20 @@ def _in_affine_span(model: LinearModel, functionals) -> bool:
     return all(_span_members(model, functionals))
 
 
-def _span_members(model: LinearModel, functionals, max_entries: int = 500_000) -> list[bool]:
+def _span_members(model: LinearModel, functionals, max_entries: int = 500_000,
+                  small_entries: int = 40_000) -> list[bool]:
     """For each f: True when f·q = 0 is shown forced by the equalities rows·q = rhs alone.
 
     True means (f, 0) is a combination y of the rows: Aᵀy = f exactly and
     b·y = 0, so f·q = y·b = 0 on the whole affine hull, certainly on the
     model.  (Sufficient, not necessary: positivity can force more; the
     caller then asks the LP.)  The combination is sought on the reduced
-    model (:mod:`nogo.reduce`): as a basic solution of Aᵀλ = f from HiGHS
-    (a vertex, whose small denominators rounding recovers), else, when
-    rounding misses and the system is small, by an exact fraction-free row
-    reduction of [Aᵀ | f] (python-flint).  Either way the combination is
+    model (:mod:`nogo.reduce`): when the system is small (below
+    *small_entries* entries), by one exact fraction-free row reduction of
+    [Aᵀ | F] for all probes F at once (python-flint); otherwise as a basic
+    solution of Aᵀλ = f from HiGHS (a vertex, whose small denominators
+    rounding recovers), else, when rounding misses and the system is below
+    *max_entries*, by the exact row reduction of [Aᵀ | f].  Either way the combination is
     lifted through the reductions and checked in integer arithmetic on the
     unreduced model, so neither the floats nor the reductions are trusted.
     """
@@ -247,11 +250,21 @@ def _span_members(model: LinearModel, functionals, max_entries: int = 500_000) -
     if m == 0:
         return out
     reds = {k: red.reduce_cost(fs[k]) for k in todo}
+    exact_ok = [k for k in todo if reds[k].num.dtype != object]
+    if n * (m + len(exact_ok)) <= small_entries and exact_ok:
+        # small: one exact row reduction answers every probe at once (cheaper than one LP per probe)
+        got = _span_by_rref(model, red, red.model.arrays.A.toarray().T, [fs[k] for k in exact_ok],
+                            [reds[k] for k in exact_ok])
+        for k, ok in zip(exact_ok, got):
+            out[k] = ok
+        todo = [k for k in todo if k not in exact_ok]  # f shown outside the span stays False: the LP decides
+        if not todo:
+            return out
     for k, status in zip(todo, _span_by_lp(model, red, [fs[k] for k in todo], [reds[k] for k in todo])):
         if status == "shown":
             out[k] = True
         elif status == "rounding" and n * (m + 1) <= max_entries and reds[k].num.dtype != object:
-            out[k] = _span_by_rref(model, red, red.model.arrays.A.toarray().T, [fs[k]], [reds[k]])
+            out[k] = _span_by_rref(model, red, red.model.arrays.A.toarray().T, [fs[k]], [reds[k]])[0]
     return out
 
 
@@ -315,8 +328,13 @@ def _span_by_lp(model, red, fs, reds) -> list[str]:
     return out
 
 
-def _span_by_rref(model, red, AT, fs, reds) -> bool:
-    """Exact fraction-free row reduction of [Aᵀ | F] (python-flint); lifted and checked exactly."""
+def _span_by_rref(model, red, AT, fs, reds) -> list[bool]:
+    """Exact fraction-free row reduction of [Aᵀ | F] (python-flint); per f, lifted and checked exactly.
+
+    With R = E [Aᵀ | F] in reduced row-echelon form and r = rank Aᵀ (its
+    pivots come first), f_k is a combination of the columns of Aᵀ exactly
+    when R[r:, m + k] = 0; the combination is read off the pivot rows.
+    """
     import flint
     import numpy as np
 
@@ -326,23 +344,29 @@ def _span_by_rref(model, red, AT, fs, reds) -> bool:
     m = a.shape[0]
     M = np.hstack([AT, np.stack([r.num for r in reds], axis=1)])
     R, d, rank = flint.fmpz_mat(M.tolist()).rref()
-    rows = R.tolist()
-    pivots = []
+    pivots = []  # entries are read one by one: converting the whole matrix to Python ints costs more than rref
+    p = 0
     for i in range(rank):
-        p = next(j for j, x in enumerate(rows[i]) if x != 0)
+        while p < m and R[i, p] == 0:
+            p += 1
         if p >= m:
-            return False  # some f is not a combination of the rows
+            break
         pivots.append(p)
+        p += 1
+    r_a = len(pivots)
     d = int(d)
     sign = 1 if d > 0 else -1
     d = abs(d)
+    out = []
     for kk, (f, r) in enumerate(zip(fs, reds)):
+        if any(R[i, m + kk] != 0 for i in range(r_a, rank)):  # rows past the rank are zero in rref
+            out.append(False)  # f is not a combination of the rows
+            continue
         num = np.zeros(m, dtype=object)
         for i, p in enumerate(pivots):
-            num[p] = sign * int(rows[i][m + kk]) * int(a.row_den[p])  # λ_p = μ_p den_p / D with Aᵀμ = r.num
-        if not _verify_span(model, red, f, ExactVector(num, d * r.den).normalised()):
-            return False
-    return True
+            num[p] = sign * int(R[i, m + kk]) * int(a.row_den[p])  # λ_p = μ_p den_p / D with Aᵀμ = r.num
+        out.append(_verify_span(model, red, f, ExactVector(num, d * r.den).normalised()))
+    return out
 
 
 def _float_vec(v):

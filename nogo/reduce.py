@@ -72,6 +72,7 @@ class MergedColumns(LazySeq):
     scenario: object
     first: np.ndarray  # a member per class
     size: np.ndarray  # members per class
+    what: str = "column(s) forced equal to it"
 
     def __len__(self) -> int:
         return len(self.first)
@@ -82,7 +83,7 @@ class MergedColumns(LazySeq):
         if n == 1:
             return base
         return Column(base.settings, base.events, base.values,
-                      f"{base.describe(self.scenario)} and {n - 1} column(s) forced equal to it")
+                      f"{base.describe(self.scenario)} and {n - 1} {self.what}")
 
 
 def _derived(model: LinearModel, arrays: ModelArrays, columns, sources, note: str) -> LinearModel:
@@ -339,6 +340,62 @@ def _fixed(model: LinearModel) -> FixedStep | None:
                      fixing_rows=single, values=vals)
 
 
+@dataclass
+class SameStep(Step):
+    """Columns with the same entries in every row and the same observation: one stands for all of them."""
+
+    first: np.ndarray = None  # the member kept for each class (its first)
+
+    def lift_point(self, x):
+        out = np.zeros(len(self.before.columns), dtype=x.num.dtype)
+        out[self.first] = x.num  # the class's weight on its first member: the same rows, the same behaviour
+        return ExactVector(out, x.den)
+
+    def reduce_cost(self, cost):
+        return ExactVector(cost.num[self.first], cost.den)
+
+    def lift_duals(self, y, cost):
+        return y  # the same rows; each member's reduced cost is its first member's (same column, same cost)
+
+
+def _same(model: LinearModel) -> SameStep | None:
+    """Group the columns equal in A and in the observation map (a hash, then an exact comparison)."""
+    a = model.arrays
+    n = a.shape[1]
+    if n < 2:
+        return None
+    AT, O = model.transposed(), a.O
+    rng = np.random.default_rng(12345)  # fixed weights: a hash only; equality is confirmed exactly below
+    h = [_float_dot(AT, rng.random(a.shape[0])) + _float_dot(O, rng.random(O.shape[1])) for _ in range(2)]
+    na, no = AT.row_nnz(), O.row_nnz()
+    order = np.lexsort((np.arange(n), no, na, h[1], h[0]))
+    k0, k1, ka, ko = h[0][order], h[1][order], na[order], no[order]
+    same = np.zeros(n, dtype=bool)
+    same[1:] = (k0[1:] == k0[:-1]) & (k1[1:] == k1[:-1]) & (ka[1:] == ka[:-1]) & (ko[1:] == ko[:-1])
+    if not same.any():
+        return None
+    rep = order.copy()  # representative (first member) of each column
+    head = np.maximum.accumulate(np.where(same, 0, np.arange(n)))
+    pos = np.flatnonzero(same)
+    j, r = order[pos], order[head[pos]]
+    eq = _rows_equal(AT, j, r) & _rows_equal(O, j, r)
+    rep[pos[eq]] = r[eq]  # a hash collision keeps its own column
+    rep_of = np.empty(n, dtype=np.int64)
+    rep_of[order] = rep
+    first = np.flatnonzero(rep_of == np.arange(n))
+    if len(first) == n:
+        return None
+    cls = np.searchsorted(first, rep_of)
+    size = np.bincount(cls, minlength=len(first))
+    arrays = ModelArrays(a.A.take_cols(first), a.row_den, a.rhs_num, a.rhs_den, a.O.take_rows(first), a.obs_den)
+    summary = (f"same: {n - len(first)} columns equal to another in every row and in the observed behaviour "
+               f"({n} -> {len(first)} columns)")
+    cols = MergedColumns(model.columns, model.scenario, first, size,
+                         "column(s) with the same entries and behaviour (their weight on it)")
+    after = _derived(model, arrays, cols, model.sources, summary)
+    return SameStep("same", summary, model, after, first=first)
+
+
 def spanning_forest(n: int, u: np.ndarray, v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """(component label per node, edge ids of a spanning forest) of the graph with edges (u[e], v[e]).
 
@@ -487,6 +544,21 @@ def _float_dot(B, w: np.ndarray) -> np.ndarray:
     return out
 
 
+def _rows_equal(B, i: np.ndarray, j: np.ndarray) -> np.ndarray:
+    """Row i[k] of B equals row j[k] (same columns, same entries), for every k at once."""
+    ni = B.indptr[i + 1] - B.indptr[i]
+    ok = ni == B.indptr[j + 1] - B.indptr[j]
+    k = np.where(ok, ni, 0)
+    tot = int(k.sum())
+    if tot == 0:
+        return ok
+    pair = np.repeat(np.arange(len(i)), k)
+    off = np.arange(tot) - np.repeat(np.cumsum(k) - k, k)
+    pi, pj = B.indptr[i][pair] + off, B.indptr[j][pair] + off
+    bad = (B.indices[pi] != B.indices[pj]) | (B.data[pi] != B.data[pj])
+    return ok & (np.bincount(pair[bad], minlength=len(i)) == 0)
+
+
 def _row_equal(B, i: int, j: int) -> bool:
     a0, a1, b0, b1 = B.indptr[i], B.indptr[i + 1], B.indptr[j], B.indptr[j + 1]
     return (a1 - a0 == b1 - b0 and np.array_equal(B.indices[a0:a1], B.indices[b0:b1])
@@ -524,7 +596,7 @@ def _zero(model: LinearModel) -> ZeroStep | None:
     return ZeroStep("zero", summary, model, after, kept_cols=kept_cols, kept_rows=kept_rows, zero_rows=zr)
 
 
-STEPS = (_merge, _zero, _fixed)
+STEPS = (_merge, _zero, _fixed, _same)
 
 
 # -- the chain -------------------------------------------------------------------
