@@ -117,6 +117,7 @@ class CheckResult:
     shape: tuple[int, int] = (0, 0)
     reductions: list[str] = field(default_factory=list)  # the reduction steps that ran (words)
     solved_shape: tuple[int, int] | None = None  # the model the LP solved (after reductions)
+    point: ExactVector | None = field(default=None, repr=False)  # the exact optimum (checked on the model)
 
     @property
     def implied(self) -> bool:
@@ -142,18 +143,41 @@ def _counterexample(model: LinearModel, cost, point) -> Counterexample:
     return Counterexample(model.behaviour(x), JointEntries(model, x), dot(cost, x), x)
 
 
-def marginal_guard(model: LinearModel, ineq: Inequality) -> None:
+def signalling_witness(model: LinearModel, ineq: Inequality, point) -> str | None:
+    """The parties whose marginal moves with another party's setting at an exact point of the model, or None.
+
+    *point* must be a point of *model* already checked exactly (a
+    counterexample, or the optimum a decision found); the behaviour it
+    produces and each probe's value at it are exact.  A non-zero probe is a
+    witness that the bundle does not imply no-signalling for that marginal:
+    the guard's refusal follows without any further LP.
+    """
+    key = tuple(sorted({m.parties for m in ineq.marginals}))
+    beh = model.behaviour(point)
+    for parties, probe in marginal_probes(model.scenario, key):
+        if probe.value(beh) != 0:
+            return ",".join(parties)
+    return None
+
+
+def marginal_guard(model: LinearModel, ineq: Inequality, point=None) -> None:
     """Refuse an inequality written with marginals under a signalling bundle.
 
     A marginal p_A(a|x) is a function of the behaviour only when it does not
     depend on the other parties' settings.  If the bundle does not imply
     that (exactly checked, like any implication), the written inequality has
     no single meaning; answering for the Collins–Gisin expansion would
-    silently answer a different question (DESIGN.md §2).
+    silently answer a different question (DESIGN.md §2).  *point*: an exact,
+    checked point of the model (e.g. a decision's optimum), tried first as a
+    witness of signalling (:func:`signalling_witness`).
     """
     sc = model.scenario
     key = tuple(sorted({m.parties for m in ineq.marginals}))
     cache = model.extra.setdefault("_guard", {})
+    if key not in cache and point is not None:
+        who = signalling_witness(model, ineq, point)  # a checked point may show the refusal at once
+        if who is not None:
+            cache[key] = who
     if key not in cache:
         cache[key] = _guard_answer(model, key)
     who = cache[key]
@@ -166,8 +190,23 @@ def marginal_guard(model: LinearModel, ineq: Inequality) -> None:
                  "or check it under a bundle that implies no-signalling")
 
 
+_PROBES: dict = {}  # (id of scenario, parties) -> (scenario, probes): one search asks for the same probes often
+
+
 def marginal_probes(scenario, parties_list) -> list[tuple[tuple[str, ...], Inequality]]:
     """Functionals "marginal at s minus marginal at s0" whose vanishing is no-signalling for each marginal."""
+    key = (id(scenario), tuple(parties_list))
+    got = _PROBES.get(key)
+    if got is not None and got[0] is scenario:
+        return got[1]
+    if len(_PROBES) > 32:
+        _PROBES.clear()
+    probes = _marginal_probes(scenario, parties_list)
+    _PROBES[key] = (scenario, probes)
+    return probes
+
+
+def _marginal_probes(scenario, parties_list) -> list[tuple[tuple[str, ...], Inequality]]:
     sc = scenario
     probes: list[tuple[tuple[str, ...], Inequality]] = []
     for parties in parties_list:
@@ -299,6 +338,7 @@ def _span_by_lp(model, red, fs, reds) -> list[str]:
     AT = rm.transposed()  # n x m: row j of Aᵀ lists the rows meeting column j
     val = AT.data.astype(float) / a.row_den.astype(float)[AT.indices]
     h = new_highs()
+    h.setOptionValue("presolve", "off")  # the same matrix for every probe: each run starts from the last basis
     lp = highspy.HighsLp()
     lp.num_col_, lp.num_row_ = m, n
     lp.col_cost_ = np.zeros(m)
@@ -343,7 +383,7 @@ def _span_by_rref(model, red, AT, fs, reds) -> list[bool]:
     a = red.model.arrays
     m = a.shape[0]
     M = np.hstack([AT, np.stack([r.num for r in reds], axis=1)])
-    R, d, rank = flint.fmpz_mat(M.tolist()).rref()
+    R, d, rank = flint.fmpz_mat(M.shape[0], M.shape[1], M.ravel().tolist()).rref()  # flat: 4x faster to build
     pivots = []  # entries are read one by one: converting the whole matrix to Python ints costs more than rref
     p = 0
     for i in range(rank):
@@ -442,7 +482,7 @@ def decide(model: LinearModel, ineq: Inequality, guard: bool = True, reducer=Non
         method += f"; LP solved on the reduced model ({m} rows x {n} columns)"
     return CheckResult(model.label, model.assumptions, ineq, "implied" if implied else "not implied",
                        opt.value, cert, ce, method, list(model.notes) + [f"reduction {t}" for t in steps] + extra_notes,
-                       model.kind, model.shape, steps, solved)
+                       model.kind, model.shape, steps, solved, opt.point)
 
 
 def recheck(model: LinearModel, result: CheckResult) -> str | None:

@@ -167,28 +167,27 @@ def ask(theory: Theory, members: Iterable[str], background: Iterable[str], ineq:
                             exc.where, exc.hint or "choose a pool without this combination (--pool)") from None
         if models is not None:
             models[key] = model
-    if ineq.marginals:
-        known = guards.lookup(subset) if guards is not None else None
-        if known is not None and not known[0]:
-            return Answer(subset, "refused", message=known[1] + " (inherited: a larger set of this search is refused)",
-                          seconds=time.perf_counter() - t0)
-        if known is None:
-            try:
-                marginal_guard(model, ineq)
-                if guards is not None:
-                    guards.passed.append(subset)
-                    guards.computed += 1
-            except InputError as exc:
-                if guards is not None:
-                    guards.refused.append((subset, exc.message))
-                    guards.computed += 1
-                return Answer(subset, "refused", message=exc.message, seconds=time.perf_counter() - t0)
+    known = guards.lookup(subset) if guards is not None and ineq.marginals else None
+    if known is not None and not known[0]:
+        return Answer(subset, "refused", message=known[1] + " (inherited: a larger set of this search is refused)",
+                      seconds=time.perf_counter() - t0)
     try:
-        r = decide(model, ineq, guard=False)
+        r = decide(model, ineq, guard=False)  # the guard below may then refuse from this answer's exact point
     except InputError as exc:
-        if "admits no behaviour" in exc.message:
+        if "admits no behaviour" in exc.message:  # no behaviour: no-signalling holds vacuously, the guard passes
             return Answer(subset, "contradictory", message=exc.message, seconds=time.perf_counter() - t0)
         raise
+    if ineq.marginals and known is None:
+        try:
+            marginal_guard(model, ineq, r.point)
+            if guards is not None:
+                guards.passed.append(subset)
+                guards.computed += 1
+        except InputError as exc:
+            if guards is not None:
+                guards.refused.append((subset, exc.message))
+                guards.computed += 1
+            return Answer(subset, "refused", message=exc.message, seconds=time.perf_counter() - t0)
     return Answer(subset, "implied" if r.implied else "not implied", r.maximum, r,
                   recheck(model, r), seconds=time.perf_counter() - t0)
 

@@ -192,3 +192,40 @@ def test_negative_fixed_value_is_left_for_the_solver():
     assert all(0 not in s.fixed_cols.tolist() for s in st)
     with pytest.raises(InputError, match="admits no behaviour"):
         decide(model, resolve_inequality(th.scenario, "CHSH"))
+
+
+# -- the marginal guard's witness ------------------------------------------------------
+def test_guard_refusal_from_a_point_agrees_with_the_full_guard():
+    # I3322 in Collins–Gisin form (Collins & Gisin, J. Phys. A 37, 1775 (2004)) uses marginals; every subset of
+    # the friends-2x3 pool: the guard told the decision's exact point refuses exactly when the full guard does
+    import itertools
+
+    from nogo.check import marginal_guard, signalling_witness
+    from nogo.errors import InputError
+    from nogo.minimal import split_pool
+
+    th = load_theory(ROOT / "theories" / "friends-2x3.yaml")
+    ineq = resolve_inequality(th.scenario, "I3322")
+    pool, background, _ = split_pool(th, None)
+    seen = set()
+    for k in range(len(pool) + 1):
+        for sub in itertools.combinations(pool, k):
+            names = list(sub) + list(background)
+            answers = []
+            for use_point in (False, True):
+                model = compile_bundle(th, names)
+                try:
+                    r = decide(model, ineq, guard=False)
+                except InputError:
+                    break  # no behaviour at all: nothing to witness
+                try:
+                    marginal_guard(model, ineq, r.point if use_point else None)
+                    answers.append("pass")
+                except InputError as exc:
+                    answers.append("refused: " + exc.message.split("'")[2][:40])
+                if use_point and signalling_witness(model, ineq, r.point) is not None:
+                    assert answers[-1].startswith("refused")  # a witness is never overruled
+            if len(answers) == 2:
+                assert answers[0].split(":")[0] == answers[1].split(":")[0], sub
+                seen.add(answers[0].split(":")[0])
+    assert seen == {"pass", "refused"}  # both kinds occur, so the comparison is not vacuous
