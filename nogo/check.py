@@ -171,7 +171,6 @@ def marginal_guard(model: LinearModel, ineq: Inequality, point=None) -> None:
     checked point of the model (e.g. a decision's optimum), tried first as a
     witness of signalling (:func:`signalling_witness`).
     """
-    sc = model.scenario
     key = tuple(sorted({m.parties for m in ineq.marginals}))
     cache = model.extra.setdefault("_guard", {})
     if key not in cache and point is not None:

@@ -220,8 +220,7 @@ def find_minimal_sets(theory: Theory, ineq: Inequality, pool: Iterable[str] | No
         progress("start", members)
     minimal: list[Answer] = []
     maximal: list[Answer] = []
-    hints = 0
-    complete = True
+    hints, complete = 0, True
     with Solver(name="m22") as solver:
         try:
             while True:
@@ -251,12 +250,15 @@ def find_minimal_sets(theory: Theory, ineq: Inequality, pool: Iterable[str] | No
             complete = False
             notes.append(f"time limit of {time_limit:g} s reached: the lists are partial "
                          "(every set listed is confirmed; others may exist)")
-    order = list(theory.assumptions)
-
-    def key(a: Answer):
-        return (len(a.subset), sorted(order.index(p) for p in a.subset))
+    key = _by_size(theory)
     return SearchResult(ineq, members, background, sorted(minimal, key=key), sorted(maximal, key=key),
                         know.calls, know.answers, complete, time.perf_counter() - t0, notes, hints)
+
+
+def _by_size(theory: Theory):
+    """Sort key of answers: smaller sets first, then in the theory's order of assumptions."""
+    order = list(theory.assumptions)
+    return lambda a: (len(a.subset), sorted(order.index(p) for p in a.subset))
 
 
 # -- many inequalities ------------------------------------------------------------
