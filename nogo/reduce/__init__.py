@@ -112,14 +112,19 @@ def reduce_model(model: LinearModel, steps=STEPS, max_rounds: int = 8) -> Reduce
             return got
     chain: list[Step] = []
     cur = model
+    idle: dict = {}  # step -> the model it last found nothing to do on (not asked again about the same model)
     for _ in range(max_rounds):
         changed = False
         for f in steps:
+            if idle.get(f) is cur:
+                continue
             st = f(cur)
             if st is not None:
                 chain.append(st)
                 cur = st.after
                 changed = True
+            else:
+                idle[f] = cur
         if not changed:
             break
     red = Reduced(model, cur, chain)

@@ -206,6 +206,13 @@ class SameStep(Step):
         return y  # the same rows; each member's reduced cost is its first member's (same column, same cost)
 
 
+def _weights(n: int, k: int) -> np.ndarray:
+    """n weights in [0, 1) from a multiplicative hash of the index (k picks one of four)."""
+    mult = (2654435761, 40503, 2246822519, 3266489917)[k]
+    ar = np.arange(n, dtype=np.uint64)
+    return ((ar * np.uint64(mult) + np.uint64(97 + k)) % np.uint64(2 ** 32)).astype(float) / 2 ** 32
+
+
 def _same(model: LinearModel) -> SameStep | None:
     """Group the columns equal in A and in the observation map (a hash, then an exact comparison)."""
     a = model.arrays
@@ -213,8 +220,8 @@ def _same(model: LinearModel) -> SameStep | None:
     if n < 2:
         return None
     AT, O = model.transposed(), a.O
-    rng = np.random.default_rng(12345)  # fixed weights: a hash only; equality is confirmed exactly below
-    h = [_float_dot(AT, rng.random(a.shape[0])) + _float_dot(O, rng.random(O.shape[1])) for _ in range(2)]
+    # fixed pseudo-random weights (numpy.random costs 20 ms to import): a hash only, equality is confirmed exactly
+    h = [_float_dot(AT, _weights(a.shape[0], k)) + _float_dot(O, _weights(O.shape[1], k + 2)) for k in range(2)]
     na, no = AT.row_nnz(), O.row_nnz()
     order = np.lexsort((np.arange(n), no, na, h[1], h[0]))
     k0, k1, ka, ko = h[0][order], h[1][order], na[order], no[order]
