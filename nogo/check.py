@@ -241,7 +241,11 @@ def _guard_answer(model: LinearModel, key) -> str | None:
     sc = model.scenario
     probes = marginal_probes(sc, key)
     costs = [model.cost_vector(p) for _, p in probes]
-    spanned = _span_members(model, costs)
+    direct = _span_from_blocks(model, probes, costs)
+    rest = [k for k, ok in enumerate(direct) if not ok]
+    spanned = list(direct)
+    for k, ok in zip(rest, _span_members(model, [costs[k] for k in rest])):
+        spanned[k] = ok
     for (parties, probe), c, inside in zip(probes, costs, spanned):
         if inside or not any(c.num.tolist()):
             continue
@@ -251,6 +255,45 @@ def _guard_answer(model: LinearModel, key) -> str | None:
             if not r.implied:
                 return ",".join(parties)
     return None
+
+
+def _span_from_blocks(model: LinearModel, probes, costs) -> list[bool]:
+    """Probes shown forced by the rows of one independence clause, read off the compiled rows' structure.
+
+    A probe "marginal of P at s minus at s0" is the sum of a clause's rows
+    q(kept = k | s) − q(kept = k | s0) over the keys k with P's outcomes
+    fixed, when the clause keeps P's outcomes and links s to s0 (agency,
+    no-signalling clauses).  The rows are only a candidate: the combination
+    is checked exactly on the model (Aᵀy = f, b·y = 0), as in
+    :func:`_span_members`.
+    """
+    import numpy as np
+
+    from .exact import dual_bound
+    from .intarith import ExactVector, reduced_costs
+
+    A = model.arrays.A
+    out = [False] * len(probes)
+    if getattr(type(A), "difference_rows", None) is None:
+        return out
+    sc = model.scenario
+    s_index = {s: i for i, s in enumerate(sc.setting_tuples())}
+    for k, ((parties, probe), f) in enumerate(zip(probes, costs)):
+        plus = {c[0] for c, v in probe.coeffs.items() if v > 0}
+        minus = {c[0] for c, v in probe.coeffs.items() if v < 0}
+        if len(plus) != 1 or len(minus) != 1:
+            continue
+        a = next(c[1] for c, v in probe.coeffs.items() if v > 0)
+        fixed = {p: a[sc.party_index(p)] for p in parties}
+        rows = A.difference_rows(s_index[next(iter(plus))], s_index[next(iter(minus))], fixed)
+        if rows is None:
+            continue
+        num = np.zeros(A.shape[0], dtype=np.int64)
+        num[rows] = 1
+        y = ExactVector(num, 1)
+        R, _ = reduced_costs(model.arrays, None, f, y)
+        out[k] = not np.any(R != 0) and dual_bound(model, y) == 0
+    return out
 
 
 def _in_affine_span(model: LinearModel, functionals) -> bool:

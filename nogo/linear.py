@@ -358,6 +358,33 @@ class CompiledRows:
         other, ids = self.rows_of([k for k in range(len(self.blocks)) if k not in pw], new_id)
         return u, v, rows, alpha, other, ids, comp
 
+    def difference_rows(self, s: int, s0: int, fixed: dict[str, str]):
+        """Rows whose sum is q(fixed | s) − q(fixed | s0), all from one block (its row ids), or None.
+
+        A block whose kept events include every event in *fixed* and whose
+        base of s is s0 has, at s, the rows q(kept = k | s) − q(kept = k | s0);
+        those with the fixed events' values sum to the difference of
+        marginals.  A candidate for an exact check, nothing more.
+        """
+        import numpy as np
+
+        for b in self.blocks[1:]:
+            if s == s0 or b.base[s] != s0 or not all(e in b.kept for e in fixed):
+                continue
+            ks = np.arange(b.K, dtype=np.int64)
+            mask = np.ones(b.K, dtype=bool)
+            stride = b.K
+            for name, outs in zip(b.kept, b.kept_outcomes):
+                stride //= len(outs)
+                if name in fixed:
+                    if fixed[name] not in outs:
+                        return None
+                    mask &= (ks // stride) % len(outs) == outs.index(fixed[name])
+            pos = b.offset + b.nonhub.index(s) * b.K + ks[mask]
+            pos = pos[self.present[pos]]
+            return np.searchsorted(self.used(), pos)
+        return None
+
     def used(self):
         import numpy as np
 

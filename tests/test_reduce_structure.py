@@ -229,3 +229,41 @@ def test_guard_refusal_from_a_point_agrees_with_the_full_guard():
                 assert answers[0].split(":")[0] == answers[1].split(":")[0], sub
                 seen.add(answers[0].split(":")[0])
     assert seen == {"pass", "refused"}  # both kinds occur, so the comparison is not vacuous
+
+
+def test_guard_from_clause_rows_agrees_with_the_general_span_test(monkeypatch):
+    # the rows of one clause (agency: A independent of B's setting) give the no-signalling combination directly;
+    # every subset of the friends-2x3 pool gets the same guard answer with that shortcut and without it
+    import itertools
+
+    import nogo.check as chk
+    from nogo.errors import InputError
+    from nogo.minimal import split_pool
+
+    th = load_theory(ROOT / "theories" / "friends-2x3.yaml")
+    ineq = resolve_inequality(th.scenario, "I3322")  # Collins & Gisin, J. Phys. A 37, 1775 (2004)
+    pool, background, _ = split_pool(th, None)
+    key = tuple(sorted({m.parties for m in ineq.marginals}))
+    probes = chk.marginal_probes(th.scenario, key)
+    shown = 0
+
+    def answer(names):
+        model = compile_bundle(th, names)
+        try:
+            chk.marginal_guard(model, ineq)
+            return "pass"
+        except InputError:
+            return "refused"
+
+    real = chk._span_from_blocks
+    for k in range(len(pool) + 1):
+        for sub in itertools.combinations(pool, k):
+            names = list(sub) + list(background)
+            model = compile_bundle(th, names)
+            shown += sum(real(model, probes, [model.cost_vector(p) for _, p in probes]))
+            with_blocks = answer(names)
+            monkeypatch.setattr(chk, "_span_from_blocks", lambda m, p, c: [False] * len(p))
+            without = answer(names)
+            monkeypatch.setattr(chk, "_span_from_blocks", real)
+            assert with_blocks == without, sub
+    assert shown > 0  # the shortcut did show probes (the comparison is not vacuous)
