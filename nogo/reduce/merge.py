@@ -16,6 +16,7 @@ class MergeStep(Step):
     cls: np.ndarray = None  # class of every column before
     kept_rows: np.ndarray = None  # rows before that stand for the rows after, in order
     edges: tuple = ()  # spanning forest: (u, v, row, coefficient numerator at u)
+    star: bool = False  # the forest is stars: the +1 end of each row has no other edge, the −1 end is the root
 
     def lift_point(self, x):
         return ExactVector(x.num[self.cls], x.den)
@@ -45,6 +46,25 @@ class MergeStep(Step):
         del T
         den = np.asarray(self.before.arrays.row_den)
         unit = int(den.max(initial=1)) == 1 and int(den.min(initial=1)) == 1
+        if self.star:  # every edge joins a leaf (its only edge) to its class's root: one peeling round, in closed form
+            leaf = np.where(alpha == 1, u, v)  # the column of the non-base settings tuple (entry +1 in the row)
+            root = np.where(alpha == 1, v, u)
+            z = -S[leaf] if unit else -S[leaf] * (den[r] if small else den[r].astype(object))
+            np.add.at(S, root, S[leaf])
+            del S, leaf, root
+        else:
+            z = self._peel(S, u, v, r, alpha, den, unit, small)
+        num = mul(yb, G // y.den)
+        if num.dtype != object and z.dtype != object:
+            num = num.copy()
+        else:
+            num = num.astype(object)
+        num[r] = z
+        return ExactVector(as_int(num), G)
+
+    @staticmethod
+    def _peel(S, u, v, r, alpha, den, unit, small):
+        """Multipliers of the forest's rows, peeled from the leaves (S: reduced costs, updated in place)."""
         z = np.zeros(len(u), dtype=np.int64 if small else object)
         deg = np.bincount(u, minlength=len(S)) + np.bincount(v, minlength=len(S))
         alive = np.ones(len(u), dtype=bool)
@@ -74,14 +94,7 @@ class MergeStep(Step):
             if not alive.any():
                 break
             ids = np.flatnonzero(alive)
-        del S, deg, alive
-        num = mul(yb, G // y.den)
-        if num.dtype != object and z.dtype != object:
-            num = num.copy()
-        else:
-            num = num.astype(object)
-        num[r] = z
-        return ExactVector(as_int(num), G)
+        return z
 
 
 def spanning_forest(n: int, u: np.ndarray, v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -180,6 +193,7 @@ def _merge(model: LinearModel) -> MergeStep | None:
     u, v, rows, alpha, B_other, other, comp = got
     a = model.arrays
     m, n = a.shape
+    star = comp is not None
     if comp is None:
         comp, forest = spanning_forest(n, u, v)
         fu, fv, fr, falpha = u[forest], v[forest], rows[forest], alpha[forest]
@@ -217,6 +231,6 @@ def _merge(model: LinearModel) -> MergeStep | None:
                f"({n} -> {ncls} columns); {dup} rows that became duplicates or 0 = 0 dropped")
     after = _derived(model, arrays, MergedColumns(model.columns, model.scenario, firsts, size),
                      Subset(model.sources, kept_rows), summary)
-    return MergeStep("merge", summary, model, after, cls=cls, kept_rows=kept_rows,
+    return MergeStep("merge", summary, model, after, cls=cls, kept_rows=kept_rows, star=star,
                      edges=(fu.astype(np.int64, copy=False), fv.astype(np.int64, copy=False), fr,
                             falpha.astype(np.int8, copy=False)))
