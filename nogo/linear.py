@@ -330,9 +330,10 @@ class CompiledRows:
         """The rows q_j − q_k = 0 of whole blocks, read from the structure (see :mod:`nogo.reduce`), or None.
 
         Returns (u, v, row, alpha, other rows, their ids, classes or None):
-        u < v the two columns, alpha the entry at u, and — when one block
+        the two columns (u < v), alpha the entry at u; or — when one block
         holds all such rows, so each is a star around the base settings
-        tuple's column — the class (that column) of every column.
+        tuple's column — u the leaf (entry +1), v its root, and the class
+        (the root) of every column.
         """
         import numpy as np
 
@@ -348,15 +349,14 @@ class CompiledRows:
                 row_p.append(new_id[row0 + b.key[ra]])
         ja, jb, rows = np.concatenate(ja_p), np.concatenate(jb_p), np.concatenate(row_p)
         del ja_p, jb_p, row_p
-        u, v = np.minimum(ja, jb), np.maximum(ja, jb)
-        alpha = np.where(u == ja, 1, -1).astype(np.int8)
-        comp = None
-        if len(pw) == 1:  # base(base(s)) = base(s): every edge joins a column to its base column
+        other, ids = self.rows_of([k for k in range(len(self.blocks)) if k not in pw], new_id)
+        if len(pw) == 1:  # base(base(s)) = base(s): every edge joins a column to its base column (stars)
             comp = np.arange(self.shape[1], dtype=np.int64)
             comp[ja] = jb
-        del ja, jb
-        other, ids = self.rows_of([k for k in range(len(self.blocks)) if k not in pw], new_id)
-        return u, v, rows, alpha, other, ids, comp
+            return ja, jb, rows, np.ones(len(ja), dtype=np.int8), other, ids, comp  # u = the +1 end (a leaf)
+        u, v = np.minimum(ja, jb), np.maximum(ja, jb)
+        alpha = np.where(u == ja, 1, -1).astype(np.int8)
+        return u, v, rows, alpha, other, ids, None
 
     def difference_rows(self, s: int, s0: int, fixed: dict[str, str]):
         """Rows whose sum is q(fixed | s) − q(fixed | s0), all from one block (its row ids), or None.

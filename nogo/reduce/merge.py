@@ -16,7 +16,7 @@ class MergeStep(Step):
     cls: np.ndarray = None  # class of every column before
     kept_rows: np.ndarray = None  # rows before that stand for the rows after, in order
     edges: tuple = ()  # spanning forest: (u, v, row, coefficient numerator at u)
-    star: bool = False  # the forest is stars: the +1 end of each row has no other edge, the −1 end is the root
+    star: bool = False  # stars: u is a leaf (entry +1, its only edge), v its root
 
     def lift_point(self, x):
         return ExactVector(x.num[self.cls], x.den)
@@ -47,11 +47,10 @@ class MergeStep(Step):
         den = np.asarray(self.before.arrays.row_den)
         unit = int(den.max(initial=1)) == 1 and int(den.min(initial=1)) == 1
         if self.star:  # every edge joins a leaf (its only edge) to its class's root: one peeling round, in closed form
-            leaf = np.where(alpha == 1, u, v)  # the column of the non-base settings tuple (entry +1 in the row)
-            root = np.where(alpha == 1, v, u)
+            leaf, root = u, v  # u: the column of the non-base settings tuple (entry +1 in the row), v: its root
             z = -S[leaf] if unit else -S[leaf] * (den[r] if small else den[r].astype(object))
             np.add.at(S, root, S[leaf])
-            del S, leaf, root
+            del S
         else:
             z = self._peel(S, u, v, r, alpha, den, unit, small)
         num = mul(yb, G // y.den)
