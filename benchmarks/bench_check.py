@@ -18,7 +18,9 @@ Part 2 runs twice: with PYTHONDONTWRITEBYTECODE=1 (every module compiled
 from source, as in this project's sessions) and with bytecode cached under a
 temporary PYTHONPYCACHEPREFIX (as for an installed package); the commands
 are interleaved and each is warmed once untimed.  Peak memory is the
-child's maximum resident set.  Ratios, not absolute
+child's maximum resident set; CPU time (user + system, from the
+children's rusage) is printed beside the wall time, since on a shared
+machine wall time also counts the waiting.  Ratios, not absolute
 times, are what to compare across machines; nothing here fails.
 """
 
@@ -78,12 +80,19 @@ def stages(repeat: int, inequality: str) -> None:
     print(f"ratio whole / bare HiGHS solve: {whole / med['bare HiGHS']:.1f}")
 
 
-def _child(cmd: list[str], cwd: Path, env: dict) -> tuple[float, float, str]:
-    """Wall seconds, peak RSS in MiB (GNU time when present) and stdout of one fresh process."""
+def _cpu() -> float:
+    import resource
+
+    r = resource.getrusage(resource.RUSAGE_CHILDREN)
+    return r.ru_utime + r.ru_stime
+
+
+def _child(cmd: list[str], cwd: Path, env: dict) -> tuple[float, float, str, float]:
+    """Wall seconds, peak RSS in MiB (GNU time when present), stdout and CPU seconds of one fresh process."""
     timer = ["/usr/bin/time", "-f", "%M"] if os.path.exists("/usr/bin/time") else []
-    t0 = time.perf_counter()
+    t0, c0 = time.perf_counter(), _cpu()
     out = subprocess.run(timer + cmd, capture_output=True, text=True, cwd=cwd, env=env)
-    t = time.perf_counter() - t0
+    t, cpu = time.perf_counter() - t0, _cpu() - c0
     rss = float("nan")
     if timer:
         try:
@@ -92,7 +101,7 @@ def _child(cmd: list[str], cwd: Path, env: dict) -> tuple[float, float, str]:
             pass
     if out.returncode not in (0, 1):
         raise SystemExit(out.stderr[-2000:])
-    return t, rss, out.stdout
+    return t, rss, out.stdout, cpu
 
 
 def _envs(tmp: str) -> list[tuple[str, dict]]:
@@ -130,13 +139,14 @@ def end_to_end(m: int, tree: str | None, repeat: int) -> None:
             for _ in range(repeat):  # interleaved, so a busy moment hits every command alike
                 for name, cmd, cwd in rows:
                     runs[name].append(_child(cmd, cwd, env))
-            res = {name: (statistics.median(r[0] for r in rr), max(r[1] for r in rr), rr[-1][2])
-                   for name, rr in runs.items()}
+            res = {name: (statistics.median(r[0] for r in rr), max(r[1] for r in rr), rr[-1][2],
+                          statistics.median(r[3] for r in rr)) for name, rr in runs.items()}
             assert "IMPLIED" in res["nogo check (this tree)"][2]
-            base = res["hand-written strategy LP"][0]
+            base, base_cpu = res["hand-written strategy LP"][0], res["hand-written strategy LP"][3]
             print(f"Bell-local 2 x {m} settings, CHSH, end to end, {label} (fresh processes, median of {repeat}):")
-            for name, (t, rss, _) in res.items():
-                print(f"  {name:<40} {t:7.2f} s  peak {rss:6.0f} MiB  ratio to hand-written {t / base:5.2f}")
+            for name, (t, rss, _, cpu) in res.items():
+                print(f"  {name:<40} {t:7.2f} s wall ({cpu:5.2f} s CPU)  peak {rss:6.0f} MiB  "
+                      f"ratio to hand-written {t / base:5.2f} (CPU {cpu / base_cpu:5.2f})")
 
 
 def main() -> None:

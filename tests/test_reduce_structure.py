@@ -111,7 +111,8 @@ def _pinned(values=(Fraction(1, 6), Fraction(1, 5))):
     base = compile_bundle(th, "no-signalling")
     rows = list(base.rows) + [{0: Fraction(2)}, {5: Fraction(1)}]
     rhs = list(base.rhs) + [2 * values[0], values[1]]
-    src = list(base.sources) + [RowSource("pin", "pin", 0, (), "2 q0 = 1/3"), RowSource("pin", "pin", 0, (), "q5 = 1/5")]
+    src = list(base.sources) + [RowSource("pin", "pin", 0, (), "2 q0 = 1/3"),
+                                RowSource("pin", "pin", 0, (), "q5 = 1/5")]
     return th, LinearModel(base.scenario, "pinned", ("no-signalling", "pin"), list(base.columns), rows, rhs, src,
                            list(base.observe), [])
 

@@ -97,6 +97,23 @@ def _float_dot(B, w: np.ndarray) -> np.ndarray:
     return out
 
 
+def hash_weights(n: int, seed: int) -> np.ndarray:
+    """n weights in [0, 1) from the splitmix64 mix of (index, seed): a hash only (equality is checked exactly).
+
+    (A Weyl sequence frac(i·φ) is additive, so sums over structured index
+    sets collide; the mix is not.)  S. Vigna's splitmix64 finaliser.
+    """
+    with np.errstate(over="ignore"):
+        x = (np.arange(n, dtype=np.uint64) + np.uint64(seed) * np.uint64(0x632BE59BD9B4E019)) * \
+            np.uint64(0x9E3779B97F4A7C15)
+        x ^= x >> np.uint64(30)
+        x *= np.uint64(0xBF58476D1CE4E5B9)
+        x ^= x >> np.uint64(27)
+        x *= np.uint64(0x94D049BB133111EB)
+        x ^= x >> np.uint64(31)
+    return (x >> np.uint64(11)).astype(float) / float(1 << 53)
+
+
 def _rows_equal(B, i: np.ndarray, j: np.ndarray) -> np.ndarray:
     """Row i[k] of B equals row j[k] (same columns, same entries), for every k at once."""
     ni = B.indptr[i + 1] - B.indptr[i]

@@ -8,7 +8,7 @@ import numpy as np
 
 from ..intarith import ExactVector, as_int, mul
 from ..model import LinearModel, ModelArrays
-from .base import Step, MergedColumns, Subset, _derived, _float_dot, _row_equal, reduced_cost_numerators
+from .base import MergedColumns, Step, Subset, _derived, _float_dot, _row_equal, hash_weights, reduced_cost_numerators
 
 
 @dataclass
@@ -206,9 +206,7 @@ def _merge(model: LinearModel) -> MergeStep | None:
     bnnz = B.row_nnz()
     keep = ~((bnnz == 0) & (rn == 0))  # 0 = 0
     # duplicates: equal rows with equal right sides (hash, then confirm exactly)
-    ar = np.arange(ncls, dtype=np.uint64)
-    h1 = _float_dot(B, ((ar * np.uint64(2654435761) + np.uint64(97)) % np.uint64(2 ** 32)).astype(float) / 2 ** 32)
-    h2 = _float_dot(B, ((ar * np.uint64(40503) + np.uint64(7919)) % np.uint64(65521)).astype(float) / 65521)
+    h1, h2 = _float_dot(B, hash_weights(ncls, 0)), _float_dot(B, hash_weights(ncls, 1))
     order = np.lexsort((bnnz, den, rd, rn, h2, h1))
     k1, k2 = h1[order], h2[order]
     same = np.zeros(len(order), dtype=bool)

@@ -10,7 +10,8 @@ import numpy as np
 
 from ..intarith import ExactVector, as_int, lcm_all, matvec, mul
 from ..model import LinearModel, ModelArrays
-from .base import Step, MergedColumns, Subset, _derived, _float_dot, _rows_equal, _transpose, reduced_cost_numerators
+from .base import (MergedColumns, Step, Subset, _derived, _float_dot, _rows_equal, _transpose, hash_weights,
+                   reduced_cost_numerators)
 
 
 @dataclass
@@ -206,13 +207,6 @@ class SameStep(Step):
         return y  # the same rows; each member's reduced cost is its first member's (same column, same cost)
 
 
-def _weights(n: int, k: int) -> np.ndarray:
-    """n weights in [0, 1) from a multiplicative hash of the index (k picks one of four)."""
-    mult = (2654435761, 40503, 2246822519, 3266489917)[k]
-    ar = np.arange(n, dtype=np.uint64)
-    return ((ar * np.uint64(mult) + np.uint64(97 + k)) % np.uint64(2 ** 32)).astype(float) / 2 ** 32
-
-
 def _same(model: LinearModel) -> SameStep | None:
     """Group the columns equal in A and in the observation map (a hash, then an exact comparison)."""
     a = model.arrays
@@ -221,7 +215,7 @@ def _same(model: LinearModel) -> SameStep | None:
         return None
     AT, O = model.transposed(), a.O
     # fixed pseudo-random weights (numpy.random costs 20 ms to import): a hash only, equality is confirmed exactly
-    h = [_float_dot(AT, _weights(a.shape[0], k)) + _float_dot(O, _weights(O.shape[1], k + 2)) for k in range(2)]
+    h = [_float_dot(AT, hash_weights(a.shape[0], k)) + _float_dot(O, hash_weights(O.shape[1], k + 2)) for k in range(2)]
     na, no = AT.row_nnz(), O.row_nnz()
     order = np.lexsort((np.arange(n), no, na, h[1], h[0]))
     k0, k1, ka, ko = h[0][order], h[1][order], na[order], no[order]
