@@ -196,7 +196,10 @@ class IntCSR:
         key = r * max(n, 1) + c
         if v.dtype != object and 0 < m * n <= 2 * len(key) + 4096 and max_abs(v) * len(key) < 2 ** 52:
             # dense enough: sum repeated positions by counting (float sums of integers below 2**52 are exact)
-            dense = np.rint(np.bincount(key, weights=v.astype(float), minlength=m * n)).astype(np.int64)
+            if int(v.min()) == int(v.max()) == 1:  # all ones: plain counts (no float weights)
+                dense = np.bincount(key, minlength=m * n)
+            else:
+                dense = np.rint(np.bincount(key, weights=v.astype(float), minlength=m * n)).astype(np.int64)
             key = np.flatnonzero(dense)
             v = dense[key]
             rows = key // n

@@ -215,10 +215,14 @@ def _same(model: LinearModel) -> SameStep | None:
         return None
     AT, O = model.transposed(), a.O
     # fixed pseudo-random weights (numpy.random costs 20 ms to import): a hash only, equality is confirmed exactly
-    h = [_float_dot(AT, hash_weights(a.shape[0], k)) + _float_dot(O, hash_weights(O.shape[1], k + 2)) for k in range(2)]
+    h0 = _float_dot(AT, hash_weights(a.shape[0], 0)) + _float_dot(O, hash_weights(O.shape[1], 2))
+    s0 = np.sort(h0)
+    if not bool(np.any(s0[1:] == s0[:-1])):
+        return None  # every column's hash differs: no two columns are equal (the common case, one pass)
+    h1 = _float_dot(AT, hash_weights(a.shape[0], 1)) + _float_dot(O, hash_weights(O.shape[1], 3))
     na, no = AT.row_nnz(), O.row_nnz()
-    order = np.lexsort((np.arange(n), no, na, h[1], h[0]))
-    k0, k1, ka, ko = h[0][order], h[1][order], na[order], no[order]
+    order = np.lexsort((np.arange(n), no, na, h1, h0))
+    k0, k1, ka, ko = h0[order], h1[order], na[order], no[order]
     same = np.zeros(n, dtype=bool)
     same[1:] = (k0[1:] == k0[:-1]) & (k1[1:] == k1[:-1]) & (ka[1:] == ka[:-1]) & (ko[1:] == ko[:-1])
     if not same.any():
