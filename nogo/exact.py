@@ -61,6 +61,11 @@ def _times(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return as_int(a.astype(object) * b.astype(object))
 
 
+def _all_one(a) -> bool:
+    a = np.asarray(a)
+    return a.dtype != object and (a.size == 0 or (int(a.min()) == 1 and int(a.max()) == 1))
+
+
 # -- solver-free checks ------------------------------------------------------
 def check_point(model: LinearModel, point) -> str | None:
     """None when *point* satisfies every row exactly and is non-negative."""
@@ -73,8 +78,11 @@ def check_point(model: LinearModel, point) -> str | None:
         j = int(neg[0])
         return f"negative entry {x[j]} at {model.columns[j].describe(model.scenario)}"
     AX = matvec(a.A, x.num)  # row i: AX_i / (row_den_i * x.den)
-    lhs = _times(AX, a.rhs_den)
-    rhs = mul(_times(a.rhs_num, a.row_den), x.den)
+    if _all_one(a.rhs_den) and _all_one(a.row_den):  # compiled models: no products of whole arrays needed
+        lhs, rhs = AX, mul(a.rhs_num, x.den)
+    else:
+        lhs = _times(AX, a.rhs_den)
+        rhs = mul(_times(a.rhs_num, a.row_den), x.den)
     bad = np.flatnonzero(lhs != rhs)
     if len(bad):
         i = int(bad[0])
