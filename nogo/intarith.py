@@ -343,7 +343,8 @@ class IntCSR:
         rc = np.asarray(cls)[self.row_ids()]
         # stable sort; numpy sorts 16-bit keys by radix (8x faster than a stable sort of int64 here)
         order = np.argsort(rc.astype(np.uint16) if ncls <= 1 << 16 else rc, kind="stable")
-        return IntCSR.from_coo(rc[order], self.indices[order], self.data[order], (ncls, self.shape[1]))
+        rc = rc[order]
+        return IntCSR.from_coo(rc, self.indices[order], self.data[order], (ncls, self.shape[1]))
 
     def toarray(self) -> np.ndarray:
         out = np.zeros(self.shape, dtype=np.int64)

@@ -199,6 +199,7 @@ def _merge(model: LinearModel) -> MergeStep | None:
     else:  # the structure says the rows already form a forest
         fu, fv, fr, falpha = u, v, rows, alpha
     cls, firsts, size = _classes(n, comp)
+    del comp
     ncls = len(firsts)
     # the other rows, with columns summed per class
     B = B_other.sum_cols(cls, ncls)
