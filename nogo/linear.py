@@ -19,9 +19,16 @@ q(e | s) over the *present* event variables e for every settings tuple s:
 Method: a joint assignment is its index in the mixed-radix numbering of
 ``itertools.product`` over the events' outcomes; read-out rules become
 vectorised masks on the digit matrix (one per pattern of active read-outs),
-columns are grouped by settings tuple (contiguous ranges), and every row is
-written as integer COO triplets (entries are ±1), so no Python code runs per
-outcome tuple.  Columns and row sources are described lazily, on demand.
+columns are grouped by settings tuple (contiguous ranges), and each
+independence clause is one *block*: a key per column (the assignment of the
+clause's kept events) and, per settings tuple s off its hub, the rows
+"q(kept = k | s) − q(kept = k | base(s)) = 0".  The rows are held in that
+form (:class:`CompiledRows`): the exact checks multiply by it directly
+(A·x, Aᵀ·y in int64 with overflow bounds), the merge reduction reads its
+equality rows off it, and the integer CSR matrix (entries ±1, written as
+COO triplets per settings tuple, already in row-major order) is built only
+when something asks for it.  No Python code runs per outcome tuple; columns
+and row sources are described lazily, on demand.
 :func:`nogo.sizes.estimate_linear` gives the size a compile would have,
 from the declaration alone (the one estimator, used by the size guards).
 
