@@ -25,6 +25,7 @@ from typing import TYPE_CHECKING
 
 from .errors import InputError
 from .inequality import Coord, Inequality
+from .lazyseq import LazySeq
 from .model import LinearModel, RowSource
 
 if TYPE_CHECKING:  # numpy, flint and HiGHS load only when a decision is made (nogo --help stays fast)
@@ -44,7 +45,7 @@ class WeightedRow:
     weight: Fraction
 
 
-class WeightedRows(Sequence):
+class WeightedRows(LazySeq):
     """The rows of a certificate with a non-zero multiplier, written out on demand."""
 
     def __init__(self, sources: Sequence, duals: ExactVector):
@@ -57,13 +58,6 @@ class WeightedRows(Sequence):
     def _one(self, k: int) -> WeightedRow:
         i = int(self.index[k])
         return WeightedRow(self.sources[i], self.duals[i])
-
-    def __getitem__(self, k):
-        if isinstance(k, slice):
-            return [self._one(i) for i in range(*k.indices(len(self)))]
-        if k < 0:
-            k += len(self)
-        return self._one(k)
 
 
 @dataclass
@@ -85,7 +79,7 @@ class Certificate:
         return out
 
 
-class JointEntries(Sequence):
+class JointEntries(LazySeq):
     """Non-zero entries of a model point, described on demand: (name, weight)."""
 
     def __init__(self, model: LinearModel, point: ExactVector):
@@ -98,13 +92,6 @@ class JointEntries(Sequence):
     def _one(self, k: int) -> tuple[str, Fraction]:
         j = int(self.index[k])
         return self.columns[j].describe(self.scenario), self.point[j]
-
-    def __getitem__(self, k):
-        if isinstance(k, slice):
-            return [self._one(i) for i in range(*k.indices(len(self)))]
-        if k < 0:
-            k += len(self)
-        return self._one(k)
 
 
 @dataclass
@@ -130,20 +117,22 @@ class CheckResult:
     shape: tuple[int, int] = (0, 0)
     reductions: list[str] = field(default_factory=list)  # the reduction steps that ran (words)
     solved_shape: tuple[int, int] | None = None  # the model the LP solved (after reductions)
+    point: ExactVector | None = field(default=None, repr=False)  # the exact optimum (checked on the model)
 
     @property
     def implied(self) -> bool:
         return self.verdict == "implied"
 
 
-def _certificate(model: LinearModel, cost, duals) -> Certificate:
+def _certificate(model: LinearModel, cost, duals, positive: int | None = None) -> Certificate:
+    """The certificate of checked duals (*positive*: their count of reduced costs > 0, when the check gave it)."""
     from .exact import dual_bound, reduced_cost_vector
     from .intarith import ExactVector
 
     y = duals if isinstance(duals, ExactVector) else ExactVector.from_fractions(list(duals))
-    r = reduced_cost_vector(model, cost, y)
-    pos = int((r.num > 0).sum())
-    return Certificate(WeightedRows(model.sources, y), pos, dual_bound(model, y), y)
+    if positive is None:
+        positive = int((reduced_cost_vector(model, cost, y).num > 0).sum())
+    return Certificate(WeightedRows(model.sources, y), positive, dual_bound(model, y), y)
 
 
 def _counterexample(model: LinearModel, cost, point) -> Counterexample:
@@ -154,18 +143,40 @@ def _counterexample(model: LinearModel, cost, point) -> Counterexample:
     return Counterexample(model.behaviour(x), JointEntries(model, x), dot(cost, x), x)
 
 
-def marginal_guard(model: LinearModel, ineq: Inequality) -> None:
+def signalling_witness(model: LinearModel, ineq: Inequality, point) -> str | None:
+    """The parties whose marginal moves with another party's setting at an exact point of the model, or None.
+
+    *point* must be a point of *model* already checked exactly (a
+    counterexample, or the optimum a decision found); the behaviour it
+    produces and each probe's value at it are exact.  A non-zero probe is a
+    witness that the bundle does not imply no-signalling for that marginal:
+    the guard's refusal follows without any further LP.
+    """
+    key = tuple(sorted({m.parties for m in ineq.marginals}))
+    beh = model.behaviour(point)
+    for parties, probe in marginal_probes(model.scenario, key):
+        if probe.value(beh) != 0:
+            return ",".join(parties)
+    return None
+
+
+def marginal_guard(model: LinearModel, ineq: Inequality, point=None) -> None:
     """Refuse an inequality written with marginals under a signalling bundle.
 
     A marginal p_A(a|x) is a function of the behaviour only when it does not
     depend on the other parties' settings.  If the bundle does not imply
     that (exactly checked, like any implication), the written inequality has
     no single meaning; answering for the Collins–Gisin expansion would
-    silently answer a different question (DESIGN.md §2).
+    silently answer a different question (DESIGN.md §2).  *point*: an exact,
+    checked point of the model (e.g. a decision's optimum), tried first as a
+    witness of signalling (:func:`signalling_witness`).
     """
-    sc = model.scenario
     key = tuple(sorted({m.parties for m in ineq.marginals}))
     cache = model.extra.setdefault("_guard", {})
+    if key not in cache and point is not None:
+        who = signalling_witness(model, ineq, point)  # a checked point may show the refusal at once
+        if who is not None:
+            cache[key] = who
     if key not in cache:
         cache[key] = _guard_answer(model, key)
     who = cache[key]
@@ -178,8 +189,23 @@ def marginal_guard(model: LinearModel, ineq: Inequality) -> None:
                  "or check it under a bundle that implies no-signalling")
 
 
+_PROBES: dict = {}  # (id of scenario, parties) -> (scenario, probes): one search asks for the same probes often
+
+
 def marginal_probes(scenario, parties_list) -> list[tuple[tuple[str, ...], Inequality]]:
     """Functionals "marginal at s minus marginal at s0" whose vanishing is no-signalling for each marginal."""
+    key = (id(scenario), tuple(parties_list))
+    got = _PROBES.get(key)
+    if got is not None and got[0] is scenario:
+        return got[1]
+    if len(_PROBES) > 32:
+        _PROBES.clear()
+    probes = _marginal_probes(scenario, parties_list)
+    _PROBES[key] = (scenario, probes)
+    return probes
+
+
+def _marginal_probes(scenario, parties_list) -> list[tuple[tuple[str, ...], Inequality]]:
     sc = scenario
     probes: list[tuple[tuple[str, ...], Inequality]] = []
     for parties in parties_list:
@@ -215,7 +241,11 @@ def _guard_answer(model: LinearModel, key) -> str | None:
     sc = model.scenario
     probes = marginal_probes(sc, key)
     costs = [model.cost_vector(p) for _, p in probes]
-    spanned = _span_members(model, costs)
+    direct = _span_from_blocks(model, probes, costs)
+    rest = [k for k, ok in enumerate(direct) if not ok]
+    spanned = list(direct)
+    for k, ok in zip(rest, _span_members(model, [costs[k] for k in rest])):
+        spanned[k] = ok
     for (parties, probe), c, inside in zip(probes, costs, spanned):
         if inside or not any(c.num.tolist()):
             continue
@@ -227,22 +257,64 @@ def _guard_answer(model: LinearModel, key) -> str | None:
     return None
 
 
+def _span_from_blocks(model: LinearModel, probes, costs) -> list[bool]:
+    """Probes shown forced by the rows of one independence clause, read off the compiled rows' structure.
+
+    A probe "marginal of P at s minus at s0" is the sum of a clause's rows
+    q(kept = k | s) − q(kept = k | s0) over the keys k with P's outcomes
+    fixed, when the clause keeps P's outcomes and links s to s0 (agency,
+    no-signalling clauses).  The rows are only a candidate: the combination
+    is checked exactly on the model (Aᵀy = f, b·y = 0), as in
+    :func:`_span_members`.
+    """
+    import numpy as np
+
+    from .exact import dual_bound
+    from .intarith import ExactVector, reduced_costs
+
+    A = model.arrays.A
+    out = [False] * len(probes)
+    if getattr(type(A), "difference_rows", None) is None:
+        return out
+    sc = model.scenario
+    s_index = {s: i for i, s in enumerate(sc.setting_tuples())}
+    for k, ((parties, probe), f) in enumerate(zip(probes, costs)):
+        plus = {c[0] for c, v in probe.coeffs.items() if v > 0}
+        minus = {c[0] for c, v in probe.coeffs.items() if v < 0}
+        if len(plus) != 1 or len(minus) != 1:
+            continue
+        a = next(c[1] for c, v in probe.coeffs.items() if v > 0)
+        fixed = {p: a[sc.party_index(p)] for p in parties}
+        rows = A.difference_rows(s_index[next(iter(plus))], s_index[next(iter(minus))], fixed)
+        if rows is None:
+            continue
+        num = np.zeros(A.shape[0], dtype=np.int64)
+        num[rows] = 1
+        y = ExactVector(num, 1)
+        R, _ = reduced_costs(model.arrays, None, f, y)
+        out[k] = not np.any(R != 0) and dual_bound(model, y) == 0
+    return out
+
+
 def _in_affine_span(model: LinearModel, functionals) -> bool:
     """Exact test: is every f·q = 0 forced by the equalities rows·q = rhs alone?  (See :func:`_span_members`.)"""
     return all(_span_members(model, functionals))
 
 
-def _span_members(model: LinearModel, functionals, max_entries: int = 500_000) -> list[bool]:
+def _span_members(model: LinearModel, functionals, max_entries: int = 500_000,
+                  small_entries: int = 40_000) -> list[bool]:
     """For each f: True when f·q = 0 is shown forced by the equalities rows·q = rhs alone.
 
     True means (f, 0) is a combination y of the rows: Aᵀy = f exactly and
     b·y = 0, so f·q = y·b = 0 on the whole affine hull, certainly on the
     model.  (Sufficient, not necessary: positivity can force more; the
     caller then asks the LP.)  The combination is sought on the reduced
-    model (:mod:`nogo.reduce`): as a basic solution of Aᵀλ = f from HiGHS
-    (a vertex, whose small denominators rounding recovers), else, when
-    rounding misses and the system is small, by an exact fraction-free row
-    reduction of [Aᵀ | f] (python-flint).  Either way the combination is
+    model (:mod:`nogo.reduce`): when the system is small (below
+    *small_entries* entries), by one exact fraction-free row reduction of
+    [Aᵀ | F] for all probes F at once (python-flint); otherwise as a basic
+    solution of Aᵀλ = f from HiGHS (a vertex, whose small denominators
+    rounding recovers), else, when rounding misses and the system is below
+    *max_entries*, by the exact row reduction of [Aᵀ | f].  Either way the combination is
     lifted through the reductions and checked in integer arithmetic on the
     unreduced model, so neither the floats nor the reductions are trusted.
     """
@@ -259,11 +331,21 @@ def _span_members(model: LinearModel, functionals, max_entries: int = 500_000) -
     if m == 0:
         return out
     reds = {k: red.reduce_cost(fs[k]) for k in todo}
+    exact_ok = [k for k in todo if reds[k].num.dtype != object]
+    if n * (m + len(exact_ok)) <= small_entries and exact_ok:
+        # small: one exact row reduction answers every probe at once (cheaper than one LP per probe)
+        got = _span_by_rref(model, red, red.model.arrays.A.toarray().T, [fs[k] for k in exact_ok],
+                            [reds[k] for k in exact_ok])
+        for k, ok in zip(exact_ok, got):
+            out[k] = ok
+        todo = [k for k in todo if k not in exact_ok]  # f shown outside the span stays False: the LP decides
+        if not todo:
+            return out
     for k, status in zip(todo, _span_by_lp(model, red, [fs[k] for k in todo], [reds[k] for k in todo])):
         if status == "shown":
             out[k] = True
         elif status == "rounding" and n * (m + 1) <= max_entries and reds[k].num.dtype != object:
-            out[k] = _span_by_rref(model, red, red.model.arrays.A.toarray().T, [fs[k]], [reds[k]])
+            out[k] = _span_by_rref(model, red, red.model.arrays.A.toarray().T, [fs[k]], [reds[k]])[0]
     return out
 
 
@@ -298,6 +380,7 @@ def _span_by_lp(model, red, fs, reds) -> list[str]:
     AT = rm.transposed()  # n x m: row j of Aᵀ lists the rows meeting column j
     val = AT.data.astype(float) / a.row_den.astype(float)[AT.indices]
     h = new_highs()
+    h.setOptionValue("presolve", "off")  # the same matrix for every probe: each run starts from the last basis
     lp = highspy.HighsLp()
     lp.num_col_, lp.num_row_ = m, n
     lp.col_cost_ = np.zeros(m)
@@ -327,8 +410,13 @@ def _span_by_lp(model, red, fs, reds) -> list[str]:
     return out
 
 
-def _span_by_rref(model, red, AT, fs, reds) -> bool:
-    """Exact fraction-free row reduction of [Aᵀ | F] (python-flint); lifted and checked exactly."""
+def _span_by_rref(model, red, AT, fs, reds) -> list[bool]:
+    """Exact fraction-free row reduction of [Aᵀ | F] (python-flint); per f, lifted and checked exactly.
+
+    With R = E [Aᵀ | F] in reduced row-echelon form and r = rank Aᵀ (its
+    pivots come first), f_k is a combination of the columns of Aᵀ exactly
+    when R[r:, m + k] = 0; the combination is read off the pivot rows.
+    """
     import flint
     import numpy as np
 
@@ -337,24 +425,30 @@ def _span_by_rref(model, red, AT, fs, reds) -> bool:
     a = red.model.arrays
     m = a.shape[0]
     M = np.hstack([AT, np.stack([r.num for r in reds], axis=1)])
-    R, d, rank = flint.fmpz_mat(M.tolist()).rref()
-    rows = R.tolist()
-    pivots = []
+    R, d, rank = flint.fmpz_mat(M.shape[0], M.shape[1], M.ravel().tolist()).rref()  # flat: 4x faster to build
+    pivots = []  # entries are read one by one: converting the whole matrix to Python ints costs more than rref
+    p = 0
     for i in range(rank):
-        p = next(j for j, x in enumerate(rows[i]) if x != 0)
+        while p < m and R[i, p] == 0:
+            p += 1
         if p >= m:
-            return False  # some f is not a combination of the rows
+            break
         pivots.append(p)
+        p += 1
+    r_a = len(pivots)
     d = int(d)
     sign = 1 if d > 0 else -1
     d = abs(d)
+    out = []
     for kk, (f, r) in enumerate(zip(fs, reds)):
+        if any(R[i, m + kk] != 0 for i in range(r_a, rank)):  # rows past the rank are zero in rref
+            out.append(False)  # f is not a combination of the rows
+            continue
         num = np.zeros(m, dtype=object)
         for i, p in enumerate(pivots):
-            num[p] = sign * int(rows[i][m + kk]) * int(a.row_den[p])  # λ_p = μ_p den_p / D with Aᵀμ = r.num
-        if not _verify_span(model, red, f, ExactVector(num, d * r.den).normalised()):
-            return False
-    return True
+            num[p] = sign * int(R[i, m + kk]) * int(a.row_den[p])  # λ_p = μ_p den_p / D with Aᵀμ = r.num
+        out.append(_verify_span(model, red, f, ExactVector(num, d * r.den).normalised()))
+    return out
 
 
 def _float_vec(v):
@@ -367,7 +461,7 @@ def _float_vec(v):
 
 def _solve(model: LinearModel, cost: ExactVector, reducer) -> tuple[ExactOptimum, list[str], tuple[int, int], list[str]]:
     """Exact optimum over *model*; through the reductions when they shrink it (evidence lifted and checked here)."""
-    from .exact import ExactFailure, ExactOptimum, check_duals, check_point, dot, dual_bound, exact_optimum
+    from .exact import ExactFailure, ExactOptimum, check_point, dot, dual_bound, duals_check, exact_optimum
     notes: list[str] = []
     if reducer is not False:
         from .reduce import reduce_model
@@ -382,12 +476,14 @@ def _solve(model: LinearModel, cost: ExactVector, reducer) -> tuple[ExactOptimum
             if ro is not None and ro.duals is not None:
                 x = red.lift_point(ro.point)
                 y = red.lift_duals(ro.duals, cost)
-                bad = check_point(model, x) or check_duals(model, cost, y)
+                bad = check_point(model, x)
+                if bad is None:
+                    bad, positive = duals_check(model, cost, y)
                 if bad is None:
                     v, b = dot(cost, x), dual_bound(model, y)
                     if v == b:
-                        return (ExactOptimum(v, x, y, ro.method + "; lifted to the unreduced model and checked there"),
-                                red.summary(), red.model.shape, notes)
+                        return (ExactOptimum(v, x, y, ro.method + "; lifted to the unreduced model and checked there",
+                                             positive), red.summary(), red.model.shape, notes)
                     bad = f"lifted point gives {v}, lifted multipliers {b}"
             if ro is not None:
                 notes.append(f"the reduced model's evidence failed its exact check on the unreduced model ({bad}); "
@@ -418,7 +514,7 @@ def decide(model: LinearModel, ineq: Inequality, guard: bool = True, reducer=Non
     implied = opt.value <= ineq.bound
     cert = ce = None
     if opt.duals is not None:
-        cert = _certificate(model, cost, opt.duals) if implied else None
+        cert = _certificate(model, cost, opt.duals, opt.positive) if implied else None
     ce = _counterexample(model, cost, opt.point) if not implied else None
     method = opt.method
     if implied and cert is None:
@@ -428,7 +524,7 @@ def decide(model: LinearModel, ineq: Inequality, guard: bool = True, reducer=Non
         method += f"; LP solved on the reduced model ({m} rows x {n} columns)"
     return CheckResult(model.label, model.assumptions, ineq, "implied" if implied else "not implied",
                        opt.value, cert, ce, method, list(model.notes) + [f"reduction {t}" for t in steps] + extra_notes,
-                       model.kind, model.shape, steps, solved)
+                       model.kind, model.shape, steps, solved, opt.point)
 
 
 def recheck(model: LinearModel, result: CheckResult) -> str | None:

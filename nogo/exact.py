@@ -41,6 +41,7 @@ class ExactOptimum:
     point: ExactVector  # exact, feasible (checked)
     duals: ExactVector | None  # exact, dual feasible (checked); None only from the z3 route
     method: str
+    positive: int | None = None  # columns with reduced cost > 0 under these duals (from their check)
 
 
 class ExactFailure(RuntimeError):
@@ -60,6 +61,11 @@ def _times(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return as_int(a.astype(object) * b.astype(object))
 
 
+def _all_one(a) -> bool:
+    a = np.asarray(a)
+    return a.dtype != object and (a.size == 0 or (int(a.min()) == 1 and int(a.max()) == 1))
+
+
 # -- solver-free checks ------------------------------------------------------
 def check_point(model: LinearModel, point) -> str | None:
     """None when *point* satisfies every row exactly and is non-negative."""
@@ -72,8 +78,11 @@ def check_point(model: LinearModel, point) -> str | None:
         j = int(neg[0])
         return f"negative entry {x[j]} at {model.columns[j].describe(model.scenario)}"
     AX = matvec(a.A, x.num)  # row i: AX_i / (row_den_i * x.den)
-    lhs = _times(AX, a.rhs_den)
-    rhs = mul(_times(a.rhs_num, a.row_den), x.den)
+    if _all_one(a.rhs_den) and _all_one(a.row_den):  # compiled models: no products of whole arrays needed
+        lhs, rhs = AX, mul(a.rhs_num, x.den)
+    else:
+        lhs = _times(AX, a.rhs_den)
+        rhs = mul(_times(a.rhs_num, a.row_den), x.den)
     bad = np.flatnonzero(lhs != rhs)
     if len(bad):
         i = int(bad[0])
@@ -91,15 +100,20 @@ def reduced_cost_vector(model: LinearModel, cost, duals) -> ExactVector:
 
 
 def check_duals(model: LinearModel, cost, duals) -> str | None:
+    return duals_check(model, cost, duals)[0]
+
+
+def duals_check(model: LinearModel, cost, duals) -> tuple[str | None, int]:
+    """(None when Aᵀy >= c holds exactly, else what fails; how many columns have reduced cost > 0)."""
     y = _vec(duals)
     if len(y) != model.shape[0]:
-        return "wrong length"
+        return "wrong length", 0
     r = reduced_cost_vector(model, cost, y)
     bad = np.flatnonzero(r.num < 0)
     if len(bad):
         j = int(bad[0])
-        return f"column {model.columns[j].describe(model.scenario)} has reduced cost {r[j]} < 0"
-    return None
+        return f"column {model.columns[j].describe(model.scenario)} has reduced cost {r[j]} < 0", 0
+    return None, int((r.num > 0).sum())
 
 
 def dual_bound(model: LinearModel, duals) -> Fraction:
@@ -175,7 +189,7 @@ def _from_basis(model: LinearModel, cost: ExactVector, ans):
         return None  # a dense rational solve this large is slower than z3
     B = a.A.take_rows(nr).take_cols(bc).toarray() if np.all(np.diff(bc) > 0) else \
         a.A.take_rows(nr).toarray()[:, bc]
-    M = flint.fmpz_mat(B.tolist())
+    M = flint.fmpz_mat(B.shape[0], B.shape[1], B.ravel().tolist())  # from a flat list: faster than nested
     # (A_num / den) x = rhs  <=>  A_num x = rhs * den ;  A_numᵀ w = c_B, y = w / den
     rhs = flint.fmpq_mat(len(nr), 1, [flint.fmpq(int(a.rhs_num[i]) * int(a.row_den[i]), int(a.rhs_den[i]))
                                       for i in nr.tolist()])
@@ -218,8 +232,11 @@ def exact_optimum(model: LinearModel, cost, ans=None) -> ExactOptimum:
             continue
         v = dot(cost, x)
         for y in ycands:
-            if dual_bound(model, y) == v and check_duals(model, cost, y) is None:
-                return ExactOptimum(v, x, y, "float optimum rounded to small denominators, checked exactly")
+            if dual_bound(model, y) == v:
+                bad, positive = duals_check(model, cost, y)
+                if bad is None:
+                    return ExactOptimum(v, x, y, "float optimum rounded to small denominators, checked exactly",
+                                        positive)
     got = _from_basis(model, cost, ans)
     if got is not None:
         x, y = got

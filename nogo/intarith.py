@@ -48,9 +48,7 @@ def as_int(a) -> np.ndarray:
 def max_abs(a: np.ndarray) -> int:
     if a.size == 0:
         return 0
-    if a.dtype == object:
-        return max(abs(int(a.max())), abs(int(a.min())))
-    return int(np.abs(a).max())
+    return max(abs(int(a.max())), abs(int(a.min())))  # two reductions, no |a| copy (and exact for Python ints)
 
 
 class ExactVector(Sequence):
@@ -196,6 +194,18 @@ class IntCSR:
                 np.cumsum(np.bincount(r, minlength=m), out=indptr[1:])
                 return cls(indptr, c, v, (m, n))
         key = r * max(n, 1) + c
+        if v.dtype != object and 0 < m * n <= 2 * len(key) + 4096 and max_abs(v) * len(key) < 2 ** 52:
+            # dense enough: sum repeated positions by counting (float sums of integers below 2**52 are exact)
+            if int(v.min()) == int(v.max()) == 1:  # all ones: plain counts (no float weights)
+                dense = np.bincount(key, minlength=m * n)
+            else:
+                dense = np.rint(np.bincount(key, weights=v.astype(float), minlength=m * n)).astype(np.int64)
+            key = np.flatnonzero(dense)
+            v = dense[key]
+            rows = key // n
+            indptr = np.zeros(m + 1, dtype=np.int64)
+            np.cumsum(np.bincount(rows, minlength=m), out=indptr[1:])
+            return cls(indptr, key - rows * n, v, (m, n))
         if len(key) > 1 and not bool(np.all(key[1:] >= key[:-1])):
             order = np.argsort(key)
             key, v = key[order], v[order]
@@ -298,9 +308,43 @@ class IntCSR:
         np.cumsum(np.bincount(rid, minlength=self.shape[0]), out=indptr[1:])
         return IntCSR(indptr, new[self.indices[sel]], self.data[sel], (self.shape[0], len(keep)))
 
-    def sum_cols(self, cls, ncls: int) -> "IntCSR":
-        """A @ M with M[j, cls[j]] = 1: columns summed by class."""
-        return IntCSR.from_coo(self.row_ids(), np.asarray(cls)[self.indices], self.data, (self.shape[0], ncls))
+    def sum_cols(self, cls, ncls: int, chunk: int = 1 << 20) -> "IntCSR":
+        """A @ M with M[j, cls[j]] = 1: columns summed by class (rows in chunks of about *chunk* entries)."""
+        cls = np.asarray(cls)
+        m = self.shape[0]
+        if self.nnz <= chunk or m <= 1:
+            return IntCSR.from_coo(self.row_ids(), cls[self.indices], self.data, (m, ncls))
+        pieces, r0 = [], 0
+        while r0 < m:
+            r1 = min(m, max(r0 + 1, int(np.searchsorted(self.indptr, self.indptr[r0] + chunk, side="right")) - 1))
+            a, b = int(self.indptr[r0]), int(self.indptr[r1])
+            part = IntCSR(self.indptr[r0:r1 + 1] - a, self.indices[a:b], self.data[a:b], (r1 - r0, self.shape[1]))
+            pieces.append(IntCSR.from_coo(part.row_ids(), cls[part.indices], part.data, (r1 - r0, ncls)))
+            r0 = r1
+        return IntCSR.vstack(pieces, ncls)
+
+    @staticmethod
+    def vstack(pieces, n: int) -> "IntCSR":
+        indptr = [np.zeros(1, dtype=np.int64)]
+        off = 0
+        for p in pieces:
+            indptr.append(p.indptr[1:] + off)
+            off += p.nnz
+        return IntCSR(np.concatenate(indptr), np.concatenate([p.indices for p in pieces]),
+                      np.concatenate([p.data for p in pieces]), (sum(p.shape[0] for p in pieces), n))
+
+    def sum_rows(self, cls, ncls: int) -> "IntCSR":
+        """M @ A with M[cls[i], i] = 1: rows summed by class.
+
+        Rows are first put in class order by a stable sort, so that when each
+        class's members already list their entries in order (the observation
+        map: members at different settings tuples) nothing else is sorted.
+        """
+        rc = np.asarray(cls)[self.row_ids()]
+        # stable sort; numpy sorts 16-bit keys by radix (8x faster than a stable sort of int64 here)
+        order = np.argsort(rc.astype(np.uint16) if ncls <= 1 << 16 else rc, kind="stable")
+        rc = rc[order]
+        return IntCSR.from_coo(rc, self.indices[order], self.data[order], (ncls, self.shape[1]))
 
     def toarray(self) -> np.ndarray:
         out = np.zeros(self.shape, dtype=np.int64)
