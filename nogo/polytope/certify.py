@@ -337,7 +337,8 @@ def reverify(payload: str, model, generators) -> tuple[Polytope | None, str]:
         return _reverify(json.loads(payload), model, generators)
     except (ValueError, KeyError, TypeError, IndexError, ZeroDivisionError, RecursionError, PolytopeError,
             AttributeError, OverflowError) as err:
-        return None, f"the stored entry is malformed ({type(err).__name__})"
+        said = str(err).splitlines()[0][:100] if str(err) else ""
+        return None, f"the stored entry is malformed ({type(err).__name__}{': ' + said if said else ''})"
 
 
 def _fractions(rows) -> list[tuple[Fraction, ...]]:
@@ -410,6 +411,8 @@ def _forms_and_certs(fr, items):
         a, b = tuple(int(v) for v in c["a"]), int(c["b"])
         if len(a) != fr.dim:
             raise ValueError("a stored inequality has the wrong length")
+        if math.gcd(b, *a) != 1:
+            raise ValueError("a stored inequality is not in primitive form (coefficients with a common factor)")
         forms.append((a, b))
         C.append(fr.full(a))
         B.append(Fraction(b))
