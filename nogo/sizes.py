@@ -155,7 +155,8 @@ def group_cells(scenario, events) -> int:
     present events, with the same read-out rules: a lab's outcome is fixed by
     the inner observer read out at its setting or by its latent outcome at
     that setting (then the latent one is fixed as well), and the sum over
-    settings tuples factorises over labs.  The mixture route uses it before it
+    settings tuples factorises over labs (a lab without events of the group
+    contributes its number of settings).  The mixture route uses it before it
     lists any cell (:mod:`nogo.mixture.guard`).
     """
     names = {e.name for e in events}
@@ -163,6 +164,7 @@ def group_cells(scenario, events) -> int:
     for p in scenario.parties:
         mine = [e for e in events if e.party == p.name]
         if not mine:
+            total *= len(p.settings)  # cells are per settings tuple of every party
             continue
         n = len(p.outcomes)
         per_lab = 0
