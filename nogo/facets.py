@@ -12,8 +12,12 @@ bundle allows (:func:`nogo.polytope.derive_polytope`), then
 * names the classes: catalog entries (positivity, CHSH, I3322, ...) are
   recognised when one of their versions is a facet; the others get stable
   numbered names ``F<n>`` from the order of their representatives;
-* caches the result on disk, keyed by a hash of the compiled model (which
-  is a function of the declarations), the coordinates and the group.
+* keeps the result in the store, keyed by a hash of the compiled model (which
+  is a function of the declarations), the coordinates and the group, and on a
+  later run re-verifies it with exact checks before calling it exact
+  (:mod:`nogo.facetstore`; names are recomputed, never read from the store).
+
+Exports (JSON, YAML, CSV, LaTeX) are in :mod:`nogo.facetexport`.
 
 ``compare(theory, b1, b2)`` sets two bundles of one scenario side by side:
 equal, one inside the other, or neither, with exact witnesses, and the facets
@@ -26,18 +30,15 @@ N. Gisin, J. Phys. A 37, 1775 (2004) and C. Śliwa, Phys. Lett. A 317, 165
 
 from __future__ import annotations
 
-import csv
-import io
-import json
 import time
 from dataclasses import dataclass, field
 from fractions import Fraction
 from pathlib import Path
-from typing import Any
 
 import numpy as np
 
 from . import facetstore
+from .facetexport import comparison_to_dict, export, to_dict  # noqa: F401 - the exports, importable from here
 from .facetstore import cache_dir  # noqa: F401 - importable from here as before
 from .compile import compile_bundle
 from .inequality import Inequality
@@ -626,122 +627,3 @@ def compare_results(r1: FacetResult, r2: FacetResult) -> Comparison:
 def _on(r: FacetResult, v: Point) -> bool:
     return all(sum((Fraction(x) * y for x, y in zip(h, v) if x), Fraction(0)) == val for h, val in r.polytope.equations)
 
-
-# ---------------------------------------------------------------------------
-# exports (our own formats)
-# ---------------------------------------------------------------------------
-def to_dict(r: FacetResult, with_vertices: bool = True) -> dict[str, Any]:
-    P = r.polytope
-    out: dict[str, Any] = {
-        "theory": r.theory_file,
-        "bundle": r.bundle,
-        "assumptions": list(r.assumptions),
-        "status": P.status,
-        "coordinates": {"kind": P.frame.kind, "names": [f.text for f in P.frame.functionals]},
-        "dimension": P.dim,
-        "counts": {"facets": len(r.facets), "classes": len(r.classes), "vertices": len(P.vertices)},
-        "symmetries": {"used": r.symmetries, "not symmetries of this set": r.dropped_symmetries},
-        "classes": [{"name": c.name, "size": c.size, "representative": r.facets[c.representative].text,
-                     **({"known as": c.known_as} if c.known_as else {})} for c in r.classes],
-        "facets": [{"class": f.class_name, "inequality": f.text,
-                    "coefficients": list(f.a), "bound": f.b,
-                    "vertices on it": len(f.vertices),
-                    "checked": ("Farkas bound verified exactly" if f.verified else "not yet checked")}
-                   for f in r.facets],
-        "equations": [{"coefficients": list(h), "value": q(v)} for h, v in P.equations],
-        "evidence": ("every vertex has an exact preimage in the compiled model; every facet has rational "
-                     "multipliers of the model's rows checked exactly; each facet is tight on vertices of "
-                     f"affine rank {P.dim - 1}" if P.status == "complete" else
-                     "partial: see notes"),
-        "notes": P.notes,
-        "seconds": round(r.seconds, 3),
-        "from cache": r.from_cache,
-        "re-verified from the store": r.reverified,
-        "route": "classes" if P.classes is not None else "plain hull",
-        "group order": r.group_order,
-        "warnings": list(r.warnings),
-    }
-    if with_vertices:
-        out["vertices"] = [{"coordinates": [q(y) for y in P.frame.coords_of(v)],
-                            "behaviour": {f"p({' '.join(a)}|{' '.join(s)})": q(x)
-                                          for (s, a), x in zip(P.scenario.coordinates(), v) if x}}
-                           for v in P.vertices]
-    return out
-
-
-def export(r: FacetResult, fmt: str, what: str = "facets") -> str:
-    """The facet or vertex list as 'json', 'yaml', 'csv' or 'latex' text."""
-    if fmt == "json":
-        d = to_dict(r, with_vertices=(what == "vertices"))
-        if what == "vertices":
-            d.pop("facets")
-        return json.dumps(d, indent=2, ensure_ascii=False)
-    if fmt == "yaml":
-        import yaml
-
-        d = to_dict(r, with_vertices=(what == "vertices"))
-        if what == "vertices":
-            d.pop("facets")
-        return yaml.safe_dump(d, sort_keys=False, allow_unicode=True, width=200)
-    names = [f.text for f in r.frame.functionals]
-    if fmt == "csv":
-        buf = io.StringIO()
-        w = csv.writer(buf)
-        if what == "facets":
-            w.writerow(["class"] + names + ["bound"])
-            for f in r.facets:
-                w.writerow([f.class_name] + list(f.a) + [f.b])
-        else:
-            w.writerow(["vertex"] + names)
-            for i, v in enumerate(r.vertices):
-                w.writerow([i + 1] + [q(y) for y in r.frame.coords_of(v)])
-        return buf.getvalue()
-    if fmt == "latex":
-        lines = [f"% {r.bundle}: {len(r.facets)} facets in {len(r.classes)} classes "
-                 f"({r.frame.kind} coordinates); generated by nogo"]
-        if what == "facets":
-            lines.append(r"\begin{align*}")
-            body = []
-            for c in r.classes:
-                rep = r.facets[c.representative]
-                body.append(rf"&\text{{{c.name} ({c.size})}}: && {r.frame.text(rep.a, rep.b, latex=True)}")
-            lines.append(" \\\\\n".join(body))
-            lines.append(r"\end{align*}")
-        else:
-            lines.append(r"\begin{tabular}{r" + "c" * len(names) + "}")
-            lines.append(" & ".join(["\\#"] + [f"${f.latex}$" for f in r.frame.functionals]) + r" \\ \hline")
-            for i, v in enumerate(r.vertices):
-                lines.append(" & ".join([str(i + 1)] + [_tex_frac(y) for y in r.frame.coords_of(v)]) + r" \\")
-            lines.append(r"\end{tabular}")
-        return "\n".join(lines) + "\n"
-    raise ValueError(f"unknown format {fmt}")
-
-
-def _tex_frac(x: Fraction) -> str:
-    return str(x.numerator) if x.denominator == 1 else rf"$\tfrac{{{x.numerator}}}{{{x.denominator}}}$"
-
-
-def comparison_to_dict(c: Comparison) -> dict[str, Any]:
-    def wit(res: FacetResult, other: FacetResult, w: Witness) -> dict:
-        return {"vertex": res.vertex_text(w.vertex), "breaks": w.breaks, "value": q(w.value),
-                "bound": q(w.bound), **({"class": other.facets[w.facet].class_name} if w.facet is not None else {})}
-
-    def facet_list(res: FacetResult, idx) -> list:
-        return [{"class": res.facets[i].class_name, "inequality": res.facets[i].text} for i in idx]
-
-    return {
-        "first": c.first.bundle, "second": c.second.bundle, "relation": c.relation,
-        "counts": {c.first.bundle: len(c.first.facets), c.second.bundle: len(c.second.facets)},
-        "same affine hull": c.same_hull,
-        "vertices of first outside second": [wit(c.first, c.second, w) for w in c.first_outside],
-        "vertices of second outside first": [wit(c.second, c.first, w) for w in c.second_outside],
-        "facets of first violated by second": [
-            {"class": c.first.facets[i].class_name, "inequality": c.first.facets[i].text,
-             "violated by": c.second.vertex_text(j)} for i, j in sorted(c.violated_facets_of_first.items())],
-        "facets of second violated by first": [
-            {"class": c.second.facets[i].class_name, "inequality": c.second.facets[i].text,
-             "violated by": c.first.vertex_text(j)} for i, j in sorted(c.violated_facets_of_second.items())],
-        "facets of first that are not facets of second": facet_list(c.first, c.first_only_facets),
-        "facets of second that are not facets of first": facet_list(c.second, c.second_only_facets),
-        "notes": c.notes,
-    }
