@@ -75,7 +75,12 @@ def to_payload(P: Polytope, model=None) -> str:
         classes = None
         facets = [{"a": list(f.a), "b": f.b, "certificate": _cert(f.certificate), "method": f.method}
                   for f in P.facets]
-    pre, eqc = (_find_evidence(P, model) if model is not None else (None, None))
+    pre = eqc = None
+    if model is not None:
+        try:
+            pre, eqc = _find_evidence(P, model)
+        except (PolytopeError, ArithmeticError, ValueError, RuntimeError):
+            pre = eqc = None  # the entry is kept without the shortcut; its load asks the oracle instead
     data = {"format": FORMAT, "fingerprint": P.fingerprint, "frame": P.frame.kind,
             "vertices": [[str(v) for v in p] for p in P.vertices],
             "preimages": pre, "equation_certificates": eqc,
