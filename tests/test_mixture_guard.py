@@ -133,3 +133,17 @@ def test_counterfactual_group_cells_against_listing():
     label, assumptions = th.resolve("big")
     events = tuple(present_events(th.scenario, assumptions))
     assert group_cells(th.scenario, events) == len(responses._cells(th.scenario, events)) == (3 * 2**3) ** 2
+
+
+def test_command_line_refuses_in_one_line(tmp_path, capsys):
+    from nogo.cli import main
+
+    path = tmp_path / "many-settings.yaml"
+    th_text = _counterfactual(8).text
+    path.write_text(th_text)
+    t0 = time.perf_counter()
+    status = main(["check", str(path), "big", "<A1 B1> + <A1 B2> + <A2 B1> - <A2 B2> <= 2"])
+    assert time.perf_counter() - t0 < 2.0
+    err = capsys.readouterr().err
+    assert status == 2 and "Traceback" not in err and "internal error" not in err
+    assert "4,194,304 columns" in err and "--max-columns" in err
