@@ -216,3 +216,28 @@ def test_bell_chsh_entry_round_trip(theory, tmp_path):
     again = facets(th, "Bell-local", cache=tmp_path)
     assert again.reverified and {c.name: c.size for c in again.classes} == {"positivity": 16, "CHSH": 8}
     assert _keys(again.facets) == _keys(fresh.facets)
+
+
+def test_plain_route_entry_reloads_without_any_solver_and_refuses_a_loosened_facet(theory, tmp_path, monkeypatch):
+    # the plain route stores every facet with its multipliers (CHSH scenario: 24 facets, Fine 1982)
+    th = theory("bell-2x2")
+    fresh = facets(th, "Bell-local", cache=tmp_path, route="plain")
+    data = _payload(tmp_path)
+    assert data["classes"] is None and len(data["facets"]) == 24
+    model, gens = compile_bundle(th, "Bell-local"), bundle_generators(th, "Bell-local")
+    real = certify.oracle_batch
+
+    def no_solver(*a, **k):
+        raise AssertionError("the LP oracle was asked during re-verification")
+    monkeypatch.setattr(certify, "oracle_batch", no_solver)
+    again = facets(th, "Bell-local", cache=tmp_path, route="plain")
+    assert again.reverified and _keys(again.facets) == _keys(fresh.facets)
+    monkeypatch.setattr(certify, "oracle_batch", real)
+    worse = copy.deepcopy(data)
+    worse["facets"][0]["b"] += 1
+    P, why = reverify(json.dumps(worse), model, gens)
+    assert P is None and ("tight" in why or "Farkas" in why)
+    twice = copy.deepcopy(data)
+    twice["facets"].append(dict(twice["facets"][0]))
+    P, why = reverify(json.dumps(twice), model, gens)
+    assert P is None and "twice" in why
