@@ -12,8 +12,12 @@ bundle allows (:func:`nogo.polytope.derive_polytope`), then
 * names the classes: catalog entries (positivity, CHSH, I3322, ...) are
   recognised when one of their versions is a facet; the others get stable
   numbered names ``F<n>`` from the order of their representatives;
-* caches the result on disk, keyed by a hash of the compiled model (which
-  is a function of the declarations), the coordinates and the group.
+* keeps the result in the store, keyed by a hash of the compiled model (which
+  is a function of the declarations), the coordinates and the group, and on a
+  later run re-verifies it with exact checks before calling it exact
+  (:mod:`nogo.facetstore`; names are recomputed, never read from the store).
+
+Exports (JSON, YAML, CSV, LaTeX) are in :mod:`nogo.facetexport`.
 
 ``compare(theory, b1, b2)`` sets two bundles of one scenario side by side:
 equal, one inside the other, or neither, with exact witnesses, and the facets
@@ -26,30 +30,25 @@ N. Gisin, J. Phys. A 37, 1775 (2004) and C. Śliwa, Phys. Lett. A 317, 165
 
 from __future__ import annotations
 
-import csv
-import hashlib
-import io
-import json
-import os
 import time
 from dataclasses import dataclass, field
 from fractions import Fraction
 from pathlib import Path
-from typing import Any
 
 import numpy as np
 
+from . import facetstore
+from .facetexport import comparison_to_dict, export, to_dict  # noqa: F401 - the exports, importable from here
+from .facetstore import cache_dir  # noqa: F401 - importable from here as before
 from .compile import compile_bundle
 from .inequality import Inequality
 from .polytope import (Frame, HullFacet, Point, Polytope, Progress, _coords_matrix, _lcm, choose_frame,
                        derive_polytope, derive_symmetric, fingerprint, int_matmul, primitive)
+from .polytope.certify import coords_int
 from .polytope.group import move_matrix
 from .report import q
 from .symmetry import Generator, bundle_generators, permutation
 from .theory import Theory
-
-CACHE_VERSION = "nogo-facets-1"
-
 
 # ---------------------------------------------------------------------------
 # results
@@ -236,6 +235,23 @@ def _rep_key(f: HullFacet):
     return (nnz, abs(f.b), neg, f.b, tuple(-abs(v) for v in f.a), tuple(-v for v in f.a))
 
 
+def _rep_ranks(facets: list[HullFacet]) -> list:
+    """Each facet's place in the order of :func:`_rep_key` (one sort of all facets, int64 when they fit)."""
+    if not facets:
+        return []
+    A = np.array([f.a for f in facets], dtype=object).reshape(len(facets), -1)
+    b = np.array([f.b for f in facets], dtype=object)
+    if max(abs(int(v)) for v in A.flat) >= 2**62 or max(abs(int(v)) for v in b) >= 2**62:
+        return [_rep_key(f) for f in facets]
+    A, b = A.astype(np.int64), b.astype(np.int64)
+    primary = [np.count_nonzero(A, axis=1), np.abs(b), np.count_nonzero(A < 0, axis=1), b]
+    keys = primary + list((-np.abs(A)).T) + list((-A).T)
+    order = np.lexsort(keys[::-1])  # the last key given is the primary one
+    rank = np.empty(len(facets), dtype=np.int64)
+    rank[order] = np.arange(len(facets))
+    return rank.tolist()
+
+
 def _catalog_names(P: Polytope, keyidx: dict) -> dict[int, tuple[str, str]]:
     """Facet index -> (catalog name, source) for catalog entries that are facets here."""
     from .catalog import load_catalog
@@ -261,7 +277,7 @@ def _catalog_names(P: Polytope, keyidx: dict) -> dict[int, tuple[str, str]]:
         vec = ineq.vector()
         den = _lcm([v.denominator for v in vec] + [Fraction(ineq.bound).denominator])
         versions = _raw_orbit(np.array([int(v * den) for v in vec], dtype=np.int64), perms)
-        for key in P.frame.reduce_many(versions, [int(ineq.bound * den)] * len(versions)):
+        for key in _reduce_versions(P.frame, versions, int(ineq.bound * den)):
             i = keyidx.get(key)
             if i is not None and i not in out:
                 out[i] = (name, entry.source)
@@ -269,22 +285,68 @@ def _catalog_names(P: Polytope, keyidx: dict) -> dict[int, tuple[str, str]]:
 
 
 def _raw_orbit(vec: np.ndarray, perms: list[list[int]], limit: int = 200_000) -> np.ndarray:
-    """Every image of an integer coefficient vector under the group the permutations generate."""
+    """Every image of an integer coefficient vector under the group the permutations generate.
+
+    Breadth first, one layer at a time: the images of the layer under every
+    generator, less those already found; rows are compared exactly as their
+    bytes (small entries are shifted into one unsigned byte each).
+    """
     inv = [np.argsort(np.array(p)) for p in perms]  # image[j] = vec[inv[j]]
-    seen = {vec.tobytes()}
-    found = [vec]
-    frontier = vec[None, :]
+    lo, hi = (int(vec.min()), int(vec.max())) if vec.size else (0, 0)
+    small = hi - lo < 256
+    base = (vec - lo).astype(np.uint8) if small else vec
+
+    def keys(rows):
+        return rows.view(f"S{rows.shape[1]}").ravel().tolist() if small else [r.tobytes() for r in rows]
+
+    found = [base[None, :]]
+    seen = set(keys(found[0]))
+    frontier = found[0]
     while len(frontier) and len(seen) < limit:
-        nxt = []
-        for ip in inv:
-            for row in frontier[:, ip]:
-                key = row.tobytes()
-                if key not in seen:
-                    seen.add(key)
-                    nxt.append(row)
-        found += nxt
-        frontier = np.array(nxt).reshape(len(nxt), len(vec))
-    return np.array(found)
+        cand = np.ascontiguousarray(np.concatenate([frontier[:, ip] for ip in inv]))
+        fresh: dict = {}
+        for i, key in enumerate(keys(cand)):
+            if key not in seen and key not in fresh:
+                fresh[key] = i
+        seen.update(fresh)
+        frontier = cand[list(fresh.values())] if fresh else cand[:0]
+        found.append(frontier)
+    out = np.concatenate(found)
+    return out.astype(np.int64) + lo if small else out
+
+
+def _reduce_versions(frame: Frame, C: np.ndarray, bound: int) -> list[tuple[tuple[int, ...], int]]:
+    """:meth:`Frame.reduce_many` for integer rows c·p <= bound, in int64 when no overflow is possible.
+
+    The same arithmetic: c·p - bound = λ·(G p) - b on the affine hull with
+    λ = c T and b = bound - c·base + λ·(G base), made integer and primitive.
+    """
+    n = len(C)
+    if not n:
+        return []
+    tden = _lcm(v.denominator for r in frame.T for v in r)
+    xden = _lcm(Fraction(v).denominator for v in frame.base)
+    gden = _lcm(v.denominator for v in frame.g0)
+    Ti = np.array([[int(v * tden) for v in r] for r in frame.T], dtype=object).reshape(len(frame.T), frame.dim)
+    X0 = np.array([int(Fraction(v) * xden) for v in frame.base], dtype=object)
+    G0 = np.array([int(v * gden) for v in frame.g0], dtype=object)
+    d, k = Ti.shape
+    big = lambda M: max((abs(int(v)) for v in M.flat), default=0)  # noqa: E731
+    cmax, tmax, xmax, gmax = int(np.max(np.abs(C))), big(Ti), big(X0), big(G0)
+    lam_max = cmax * tmax * d
+    L = tden * xden * gden
+    terms = (lam_max * xden * gden, abs(bound) * L, cmax * xmax * d * tden * gden, lam_max * gmax * k * xden)
+    if C.dtype == object or max(terms) >= 2**60:
+        return frame.reduce_many(C, [bound] * n)
+    Ci = C.astype(np.int64)
+    lam = Ci @ Ti.astype(np.int64)
+    out = np.empty((n, k + 1), dtype=np.int64)
+    out[:, :k] = lam * (xden * gden)
+    out[:, k] = bound * L - (Ci @ X0.astype(np.int64)) * (tden * gden) + (lam @ G0.astype(np.int64)) * xden
+    g = np.gcd.reduce(np.abs(out), axis=1)
+    g[g == 0] = 1
+    out //= g[:, None]
+    return [(tuple(r[:-1]), r[-1]) for r in out.tolist()]
 
 
 def _build(theory_file: str, P: Polytope, gens: list[Generator], seconds: float,
@@ -302,11 +364,9 @@ def _build(theory_file: str, P: Polytope, gens: list[Generator], seconds: float,
         kept = dropped = []
     keyidx = {(f.a, f.b): i for i, f in enumerate(P.facets)}
     known = _catalog_names(P, keyidx)
-    reps = []
-    for members in orbits:
-        rep = min(members, key=lambda i: _rep_key(P.facets[i]))
-        reps.append(rep)
-    order = sorted(range(len(orbits)), key=lambda c: (_rep_key(P.facets[reps[c]]), len(orbits[c])))
+    rank = _rep_ranks(P.facets)
+    reps = [min(members, key=rank.__getitem__) for members in orbits]
+    order = sorted(range(len(orbits)), key=lambda c: (rank[reps[c]], len(orbits[c])))
     classes: list[FacetClass] = []
     name_of: dict[int, str] = {}
     used: set[str] = set()
@@ -327,7 +387,7 @@ def _build(theory_file: str, P: Polytope, gens: list[Generator], seconds: float,
         for i in members:
             name_of[i] = name
     # vertices on each facet (exact integers)
-    Y, den = _coords_matrix(P.frame, P.vertices)
+    Y, den = coords_int(P.frame, P.vertices)
     vals = int_matmul([f.a for f in P.facets], Y, k)
     facets = []
     lim = np.array([f.b for f in P.facets], dtype=vals.dtype) * den if P.facets else None
@@ -340,41 +400,6 @@ def _build(theory_file: str, P: Polytope, gens: list[Generator], seconds: float,
         dropped = classes_in[0].get("_dropped", []) if classes_in else []
     return FacetResult(theory_file, P.label, P.assumptions, P, facets, classes, list(kept), list(dropped),
                        seconds=seconds, group_order=P.group_order)
-
-
-# ---------------------------------------------------------------------------
-# cache
-# ---------------------------------------------------------------------------
-def cache_dir() -> Path:
-    return Path(os.environ.get("NOGO_CACHE") or Path.cwd() / ".nogo-cache")
-
-
-def _cache_key(model, frame: str, gens: list[Generator], route: str) -> str:
-    h = hashlib.sha256()
-    for part in (CACHE_VERSION, fingerprint(model), frame, route, "|".join(g.label for g in gens)):
-        h.update(part.encode())
-        h.update(b"\0")
-    return h.hexdigest()[:24]
-
-
-def _load(store, key: str, model, gens, theory_file: str) -> tuple[FacetResult | None, str]:
-    """A stored result, re-verified (:func:`nogo.polytope.certify.reverify`); (None, reason) when it fails."""
-    from .polytope.certify import reverify
-
-    entry = store.get(key)
-    if entry is None:
-        return None, ""
-    if not entry["hash_ok"]:
-        return None, "its content hash does not match"
-    if entry["fingerprint"] != fingerprint(model):
-        return None, "it was derived from another model"
-    t0 = time.perf_counter()
-    P, why = reverify(entry["payload"], model, gens)
-    if P is None:
-        return None, why
-    r = _build(theory_file, P, gens, time.perf_counter() - t0)
-    r.from_cache, r.reverified, r.cache_file = True, True, str(store.path)
-    return r, ""
 
 
 # ---------------------------------------------------------------------------
@@ -416,13 +441,14 @@ def facets(theory: Theory, bundle, *, frame: str = "auto", cache: bool | str | P
     store = key = None
     warnings: list[str] = []
     if cache:
-        from .store import Store
-
-        store = Store(cache_dir() if cache is True else Path(cache))
-        key = _cache_key(model, frame, gens, route)
-        r, why = _load(store, key, model, gens, theory_file)
+        store = facetstore.open_store(cache)
+        key = facetstore.cache_key(model, frame, gens, route)
+        t1 = time.perf_counter()
+        P, why = facetstore.load(store, key, model, gens)
         warnings += store.warnings
-        if r is not None:
+        if P is not None:
+            r = _build(theory_file, P, gens, time.perf_counter() - t1)
+            r.from_cache, r.reverified, r.cache_file = True, True, str(store.path)
             r.warnings = warnings
             r.seconds = time.perf_counter() - t0
             return r
@@ -432,24 +458,17 @@ def facets(theory: Theory, bundle, *, frame: str = "auto", cache: bool | str | P
         P = derive_polytope(model, frame, moves=[g.move for g in gens], seed=seed, time_limit=time_limit,
                             workers=workers, progress=progress)
     else:
-        pieces = None
-        if store is not None:
-            from .store import RunPieces
-
-            pieces = RunPieces(store, key)
+        pieces = facetstore.run_pieces(store, key) if store is not None else None
         P = derive_symmetric(model, frame, generators=gens, seed=seed, time_limit=time_limit, workers=workers,
                              progress=progress, store=pieces, force=(route == "symmetric"))
     if progress:
         progress("classes", 0, None)
     r = _build(theory_file, P, gens, 0.0)
-    r.seconds = time.perf_counter() - t0
-    if store is not None and P.status == "complete":
-        from .polytope.certify import to_payload
-
-        if store.put(key, P.fingerprint, "facets", to_payload(P)):
-            r.cache_file = str(store.path)
-        store.drop_run(key)  # the pieces of the run are no longer needed
+    if store is not None and facetstore.keep(store, key, P, model):
+        r.cache_file = str(store.path)
+    if store is not None:
         warnings += [w for w in store.warnings if w not in warnings]
+    r.seconds = time.perf_counter() - t0
     r.warnings = warnings
     return r
 
@@ -608,122 +627,3 @@ def compare_results(r1: FacetResult, r2: FacetResult) -> Comparison:
 def _on(r: FacetResult, v: Point) -> bool:
     return all(sum((Fraction(x) * y for x, y in zip(h, v) if x), Fraction(0)) == val for h, val in r.polytope.equations)
 
-
-# ---------------------------------------------------------------------------
-# exports (our own formats)
-# ---------------------------------------------------------------------------
-def to_dict(r: FacetResult, with_vertices: bool = True) -> dict[str, Any]:
-    P = r.polytope
-    out: dict[str, Any] = {
-        "theory": r.theory_file,
-        "bundle": r.bundle,
-        "assumptions": list(r.assumptions),
-        "status": P.status,
-        "coordinates": {"kind": P.frame.kind, "names": [f.text for f in P.frame.functionals]},
-        "dimension": P.dim,
-        "counts": {"facets": len(r.facets), "classes": len(r.classes), "vertices": len(P.vertices)},
-        "symmetries": {"used": r.symmetries, "not symmetries of this set": r.dropped_symmetries},
-        "classes": [{"name": c.name, "size": c.size, "representative": r.facets[c.representative].text,
-                     **({"known as": c.known_as} if c.known_as else {})} for c in r.classes],
-        "facets": [{"class": f.class_name, "inequality": f.text,
-                    "coefficients": list(f.a), "bound": f.b,
-                    "vertices on it": len(f.vertices),
-                    "checked": ("Farkas bound verified exactly" if f.verified else "not yet checked")}
-                   for f in r.facets],
-        "equations": [{"coefficients": list(h), "value": q(v)} for h, v in P.equations],
-        "evidence": ("every vertex has an exact preimage in the compiled model; every facet has rational "
-                     "multipliers of the model's rows checked exactly; each facet is tight on vertices of "
-                     f"affine rank {P.dim - 1}" if P.status == "complete" else
-                     "partial: see notes"),
-        "notes": P.notes,
-        "seconds": round(r.seconds, 3),
-        "from cache": r.from_cache,
-        "re-verified from the store": r.reverified,
-        "route": "classes" if P.classes is not None else "plain hull",
-        "group order": r.group_order,
-        "warnings": list(r.warnings),
-    }
-    if with_vertices:
-        out["vertices"] = [{"coordinates": [q(y) for y in P.frame.coords_of(v)],
-                            "behaviour": {f"p({' '.join(a)}|{' '.join(s)})": q(x)
-                                          for (s, a), x in zip(P.scenario.coordinates(), v) if x}}
-                           for v in P.vertices]
-    return out
-
-
-def export(r: FacetResult, fmt: str, what: str = "facets") -> str:
-    """The facet or vertex list as 'json', 'yaml', 'csv' or 'latex' text."""
-    if fmt == "json":
-        d = to_dict(r, with_vertices=(what == "vertices"))
-        if what == "vertices":
-            d.pop("facets")
-        return json.dumps(d, indent=2, ensure_ascii=False)
-    if fmt == "yaml":
-        import yaml
-
-        d = to_dict(r, with_vertices=(what == "vertices"))
-        if what == "vertices":
-            d.pop("facets")
-        return yaml.safe_dump(d, sort_keys=False, allow_unicode=True, width=200)
-    names = [f.text for f in r.frame.functionals]
-    if fmt == "csv":
-        buf = io.StringIO()
-        w = csv.writer(buf)
-        if what == "facets":
-            w.writerow(["class"] + names + ["bound"])
-            for f in r.facets:
-                w.writerow([f.class_name] + list(f.a) + [f.b])
-        else:
-            w.writerow(["vertex"] + names)
-            for i, v in enumerate(r.vertices):
-                w.writerow([i + 1] + [q(y) for y in r.frame.coords_of(v)])
-        return buf.getvalue()
-    if fmt == "latex":
-        lines = [f"% {r.bundle}: {len(r.facets)} facets in {len(r.classes)} classes "
-                 f"({r.frame.kind} coordinates); generated by nogo"]
-        if what == "facets":
-            lines.append(r"\begin{align*}")
-            body = []
-            for c in r.classes:
-                rep = r.facets[c.representative]
-                body.append(rf"&\text{{{c.name} ({c.size})}}: && {r.frame.text(rep.a, rep.b, latex=True)}")
-            lines.append(" \\\\\n".join(body))
-            lines.append(r"\end{align*}")
-        else:
-            lines.append(r"\begin{tabular}{r" + "c" * len(names) + "}")
-            lines.append(" & ".join(["\\#"] + [f"${f.latex}$" for f in r.frame.functionals]) + r" \\ \hline")
-            for i, v in enumerate(r.vertices):
-                lines.append(" & ".join([str(i + 1)] + [_tex_frac(y) for y in r.frame.coords_of(v)]) + r" \\")
-            lines.append(r"\end{tabular}")
-        return "\n".join(lines) + "\n"
-    raise ValueError(f"unknown format {fmt}")
-
-
-def _tex_frac(x: Fraction) -> str:
-    return str(x.numerator) if x.denominator == 1 else rf"$\tfrac{{{x.numerator}}}{{{x.denominator}}}$"
-
-
-def comparison_to_dict(c: Comparison) -> dict[str, Any]:
-    def wit(res: FacetResult, other: FacetResult, w: Witness) -> dict:
-        return {"vertex": res.vertex_text(w.vertex), "breaks": w.breaks, "value": q(w.value),
-                "bound": q(w.bound), **({"class": other.facets[w.facet].class_name} if w.facet is not None else {})}
-
-    def facet_list(res: FacetResult, idx) -> list:
-        return [{"class": res.facets[i].class_name, "inequality": res.facets[i].text} for i in idx]
-
-    return {
-        "first": c.first.bundle, "second": c.second.bundle, "relation": c.relation,
-        "counts": {c.first.bundle: len(c.first.facets), c.second.bundle: len(c.second.facets)},
-        "same affine hull": c.same_hull,
-        "vertices of first outside second": [wit(c.first, c.second, w) for w in c.first_outside],
-        "vertices of second outside first": [wit(c.second, c.first, w) for w in c.second_outside],
-        "facets of first violated by second": [
-            {"class": c.first.facets[i].class_name, "inequality": c.first.facets[i].text,
-             "violated by": c.second.vertex_text(j)} for i, j in sorted(c.violated_facets_of_first.items())],
-        "facets of second violated by first": [
-            {"class": c.second.facets[i].class_name, "inequality": c.second.facets[i].text,
-             "violated by": c.first.vertex_text(j)} for i, j in sorted(c.violated_facets_of_second.items())],
-        "facets of first that are not facets of second": facet_list(c.first, c.first_only_facets),
-        "facets of second that are not facets of first": facet_list(c.second, c.second_only_facets),
-        "notes": c.notes,
-    }

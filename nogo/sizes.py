@@ -73,7 +73,7 @@ def _big(n: int) -> str:
 def _bytes(n: int) -> str:
     for unit, size in (("TB", 10**12), ("GB", 10**9), ("MB", 10**6), ("kB", 10**3)):
         if n >= size:
-            return f"{n / size:.1f} {unit}" if n < 10**15 else f"more than 1000 TB"
+            return f"{n / size:.1f} {unit}" if n < 10**15 else "more than 1000 TB"
     return f"{n} bytes"
 
 
@@ -148,6 +148,65 @@ def estimate_linear(scenario, assumptions) -> SizeEstimate:
     return SizeEstimate("linear", rows, columns, nonzeros, coordinates)
 
 
+def group_cells(scenario, events) -> int:
+    """Cells r(e | s) of a response over the present *events* (EventVars), counted from the declaration.
+
+    The count of :func:`estimate_linear`'s columns for a subset of the
+    present events, with the same read-out rules: a lab's outcome is fixed by
+    the inner observer read out at its setting or by its latent outcome at
+    that setting (then the latent one is fixed as well), and the sum over
+    settings tuples factorises over labs (a lab without events of the group
+    contributes its number of settings).  The mixture route uses it before it
+    lists any cell (:mod:`nogo.mixture.guard`).
+    """
+    names = {e.name for e in events}
+    total = 1
+    for p in scenario.parties:
+        mine = [e for e in events if e.party == p.name]
+        if not mine:
+            total *= len(p.settings)  # cells are per settings tuple of every party
+            continue
+        n = len(p.outcomes)
+        per_lab = 0
+        for x in p.settings:
+            count = 1
+            party_free = p.name in names
+            for e in mine:
+                if e.kind == "inner":
+                    count *= len(e.outcomes)
+                    if p.name in names and scenario.observer(e.name).read_out_at == x:
+                        party_free = False
+            for e in mine:
+                if e.kind == "latent":
+                    count *= n
+                    if p.name in names and e.setting == x:
+                        if party_free:
+                            party_free = False  # the outcome equals its latent value at x
+                        else:
+                            count //= n  # the latent value equals the outcome, fixed by the observer
+            per_lab += count * (n if party_free else 1)
+        total *= per_lab
+    return total
+
+
+def guard_linear(scenario, label: str, assumptions, max_columns: int | None = None, where: Where | None = None,
+                 what: str = "the linear model") -> SizeEstimate:
+    """Refuse the plain linear model of *assumptions* above the column limit, before it is built.
+
+    Shared by :func:`guard_bundle` and the mixture route's convex shortcut
+    (:mod:`nogo.mixture.guard`), which compiles a hidden-variable bundle as
+    the equivalent linear model: the refusal names the size, the assumption
+    (or the scenario) responsible and the option that raises the limit.
+    """
+    max_columns = column_limit(max_columns)
+    est = estimate_linear(scenario, assumptions)
+    if est.columns > max_columns:
+        raise ModelTooLarge(
+            f"{what} for '{label}' would have {est.describe()} (limit {max_columns:,} columns): "
+            + blame(scenario, assumptions, est.columns), where, _RAISE)
+    return est
+
+
 def _needs_hidden(assumptions) -> bool:
     from .theory import Factorise, Hidden, Independent, Predetermined  # noqa: PLC0415
 
@@ -173,7 +232,8 @@ def guard_bundle(theory, spec, max_columns: int | None = None, **_) -> SizeEstim
     Checks the observed coordinates for every bundle (an inequality and every
     behaviour is a vector over them) and, for bundles without a hidden
     variable, the linear model itself.  Mixture models keep their own guard
-    on the number of extreme responses (:mod:`nogo.mixture`).  Returns the
+    on the cells and extreme responses of each group, from the declaration
+    too (:mod:`nogo.mixture.guard`).  Returns the
     estimate; raises :class:`ModelTooLarge` naming the assumption (or the
     scenario size) responsible and the option ``--max-columns``.
     """
@@ -189,12 +249,7 @@ def guard_bundle(theory, spec, max_columns: int | None = None, **_) -> SizeEstim
             _RAISE)
     if _needs_hidden(assumptions):
         return est
-    if est.columns > max_columns:
-        raise ModelTooLarge(
-            f"the linear model for '{label}' would have {est.describe()} (limit {max_columns:,} columns): "
-            + blame(sc, assumptions, est.columns), where,
-            _RAISE)
-    return est
+    return guard_linear(sc, label, assumptions, max_columns, where)
 
 
 def guard_coordinates(sc) -> None:
