@@ -89,3 +89,24 @@ def test_mermin_class_of_the_three_party_set_with_renamed_parties(tmp_path):
     assert len(r.facets) == 53856 and len(r.classes) == 46
     sizes = {c.name: c.size for c in r.classes}
     assert sizes["Mermin"] == 16 and sizes["positivity-3"] == 64
+
+
+def test_catalog_entry_read_by_position_is_the_hand_written_inequality(tmp_path):
+    # the stages of read_entry: parties by position, settings and outcomes by label, text carried over
+    from nogo.catalog import resolve_inequality
+    from nogo.errors import InputError
+    from nogo.inequality import parse_inequality
+    from nogo.theory import load_theory
+
+    th = load_theory(_renamed("bell-3x2.yaml", {"A": "Ann", "B": "Bo", "C": "Cy"}, tmp_path / "r.yaml"))
+    sc = th.scenario
+    got = resolve_inequality(sc, "Mermin")
+    want = parse_inequality(sc, "<Ann1 Bo1 Cy1> - <Ann1 Bo2 Cy2> - <Ann2 Bo1 Cy2> - <Ann2 Bo2 Cy1> <= 2")
+    assert got.same_as(want) and "matched by position" in got.origin
+    swapped = resolve_inequality(sc, "Mermin", match="A=Bo,B=Ann,C=Cy")
+    assert swapped.same_as(want)  # Mermin's expression is symmetric under exchanging parties
+    flipped = resolve_inequality(sc, "Mermin", match="+1=-1,-1=+1")  # every outcome flipped: sign of odd terms
+    assert flipped.same_as(parse_inequality(
+        sc, "-<Ann1 Bo1 Cy1> + <Ann1 Bo2 Cy2> + <Ann2 Bo1 Cy2> + <Ann2 Bo2 Cy1> <= 2"))
+    with pytest.raises(InputError, match="neither an entry party"):
+        resolve_inequality(sc, "Mermin", match="D=-1")
