@@ -21,8 +21,10 @@ them) and, when the list is complete, writes under ``results/facets/NAME/``:
   re-checks it;
 * ``run.json``       how this run went: seconds, machine, the command.
 
-The README.md beside them is written by hand from these files.  Exit status
-0 complete (files written), 1 partial (nothing written; run again to resume).
+and ``README.md`` (what was derived, the commands, counts, the class table,
+times, machine, the exact evidence; ``--about`` and ``--times`` add the
+words and the times of earlier attempts of a resumed run).  Exit status 0
+complete (files written), 1 partial (nothing written; run again to resume).
 """
 
 from __future__ import annotations
@@ -65,6 +67,8 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--time-limit", type=float, default=None)
     ap.add_argument("--cache-dir", default=str(ROOT / ".nogo-cache"))
     ap.add_argument("--full-list-limit", type=int, default=5000)
+    ap.add_argument("--about", default="", help="a paragraph for the README (what the list is)")
+    ap.add_argument("--times", default="", help="the times of the attempts (a resumed run), for the README")
     a = ap.parse_args(argv)
 
     from nogo.facets import facets, to_dict
@@ -99,7 +103,56 @@ def main(argv: list[str] | None = None) -> int:
            "from the store (re-verified)": r.from_cache, "stage seconds": P.stats.get("times", {}),
            "stats": stats, "machine": machine()}
     write_text(out / "run.json", json.dumps(run, indent=1, ensure_ascii=False, default=str) + "\n")
+    write_text(out / "README.md", readme(a, d, r, run))
     return 0
+
+
+def readme(a, d: dict, r, run: dict) -> str:
+    """The folder's README: the commands, counts, classes, times, machine and the exact evidence."""
+    P = r.polytope
+    cmd_user = f"python -m nogo facets {d['theory']} {a.bundle}" + (f" --route {a.route}" if a.route != "auto" else "")
+    lines = [f"# {a.bundle} of `{d['theory']}`: {len(r.facets):,} facets in {len(r.classes)} classes", ""]
+    if a.about:
+        lines += [a.about, ""]
+    lines += [f"Bundle `{a.bundle}` = {' + '.join(d['assumptions'])}.", "",
+              "## Regenerate", "", "From the repository root:", "", "```",
+              run["command"], "```", "",
+              "writes the files of this folder (resumable: a run stopped by `--time-limit` keeps its closed "
+              "classes in the store under `--cache-dir` and the next call resumes from them).  The same list "
+              "on the command line:", "", "```", cmd_user + "            # classes, one representative each",
+              cmd_user + " --all      # every facet", cmd_user + " --format json --out FILE", "```", "",
+              "## Counts", "",
+              f"* {len(r.facets):,} facets in {len(r.classes)} classes under a symmetry group of order "
+              f"{r.group_order} ({len(r.symmetries)} generating relabellings, each verified exactly on the "
+              "compiled model)",
+              f"* {len(P.vertices):,} vertices, dimension {P.dim}, {d['coordinates']['kind']} coordinates", "",
+              "Class sizes (size: number of classes): "
+              + ", ".join(f"{s}: {n}" for s, n in sorted(_hist([c.size for c in r.classes]).items())) + ".", "",
+              "## Times", ""]
+    if a.times:
+        lines += [a.times, ""]
+    lines += [f"This call: {run['seconds wall (this call)']} s wall, {run['seconds CPU (this process)']} s CPU"
+              + (" (read from the store and re-verified exactly)" if run["from the store (re-verified)"] else ""),
+              f"on {run['machine']}.", "", "## Evidence", "",
+              "`evidence.json`: every vertex with an exact preimage in the compiled model; the equations of the "
+              "affine hull, each proved both ways by a Farkas certificate; every class representative with "
+              "rational Farkas multipliers of the model's rows (checked in integer arithmetic) and tight on "
+              f"vertices of affine rank {P.dim - 1}; every other member is the image of its representative "
+              "under a relabelling verified to be a symmetry of the model, and each class's size is its orbit "
+              "size.  `tests/test_results_facets.py` repeats every one of these checks from the declarations "
+              "(default run) and derives the list again (`--runslow`).", "",
+              "## Classes", "", "| class | size | representative |", "|---|---|---|"]
+    for c in r.classes:
+        rep = r.facets[c.representative].text.replace("|", "\\|")
+        lines.append(f"| {c.name} | {c.size} | {rep} |")
+    return "\n".join(lines) + "\n"
+
+
+def _hist(xs):
+    out: dict[int, int] = {}
+    for x in xs:
+        out[x] = out.get(x, 0) + 1
+    return out
 
 
 _last = [0.0]
