@@ -32,17 +32,26 @@ from nogo.atomic import write_text  # noqa: E402
 
 
 def inclusion(th, outer: str, inner: str, cache) -> dict:
-    from nogo.check import decide, recheck
-    from nogo.compile import compile_bundle
-    from nogo.facets import classify, facets
-    from nogo.polytope.oracle import oracle_batch
-    from nogo.report import q
-    from nogo.symmetry import bundle_generators, lift_to_model
+    from nogo.facets import facets
 
     t0 = time.perf_counter()
     r = facets(th, outer, cache=cache)
     if r.polytope.status != "complete":
         raise SystemExit(f"the facet list of {outer} is not complete")
+    return inclusion_of(r, th, inner, t0)
+
+
+def inclusion_of(r, th, inner: str, t0: float | None = None) -> dict:
+    """The comparison from a complete facet list *r* of the outer bundle (see the module docstring)."""
+    from nogo.check import decide, recheck
+    from nogo.compile import compile_bundle
+    from nogo.facets import classify
+    from nogo.polytope.oracle import oracle_batch
+    from nogo.report import q
+    from nogo.symmetry import bundle_generators, lift_to_model
+
+    t0 = time.perf_counter() if t0 is None else t0
+    outer = r.bundle
     model = compile_bundle(th, inner)
     moves = [g for g in bundle_generators(th, inner) if lift_to_model(model, g) is not None]
     orbits, kept, dropped = classify(r.polytope, moves)
