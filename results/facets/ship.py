@@ -98,7 +98,12 @@ def main(argv: list[str] | None = None) -> int:
     write_text(out / "classes.json", json.dumps(d, indent=1, ensure_ascii=False) + "\n")
     write_text(out / "evidence.json", to_payload(P) + "\n")
     stats = {k: v for k, v in P.stats.items() if k != "times"}
-    run = {"command": " ".join(["python", "results/facets/ship.py"] + (argv if argv is not None else sys.argv[1:])),
+    words = ["python", "results/facets/ship.py", a.name, d["theory"], a.bundle]
+    for flag, value, default in (("--route", a.route, "auto"), ("--coordinates", a.coordinates, "auto"),
+                                 ("--time-limit", a.time_limit, None)):
+        if value != default:
+            words += [flag, f"{value:g}" if isinstance(value, float) else str(value)]
+    run = {"command": " ".join(words),
            "seconds wall (this call)": round(wall, 1), "seconds CPU (this process)": round(cpu, 1),
            "from the store (re-verified)": r.from_cache, "stage seconds": P.stats.get("times", {}),
            "stats": stats, "machine": machine()}
