@@ -74,12 +74,37 @@ def read_entry(entry: CatalogEntry, scenario: Scenario, match: str | None = None
     outcome labels explicitly.  Only a different shape is refused.  The text is
     then shown in the entry's own notation with the scenario's names, and the
     mapping is kept in ``origin`` to be printed once.
-    """
-    from .scenario import Party
 
+    Stages: the party map (:func:`_party_map`), each party's setting and
+    outcome maps with a proxy scenario in the entry's own labels
+    (:func:`_label_maps`), the text parsed there and carried over
+    (:func:`_carry_over`).
+    """
     where = Where(entry.file, entry.line)
     mw = Where("command line", key="--match")
     explicit = _parse_match(match, mw)
+    pmap, omap_x = _party_map(entry, scenario, explicit, where, mw)
+    proxy, maps = _label_maps(entry, scenario, pmap, omap_x, mw)
+    notes = _mapping_words(entry.parties, pmap, maps)
+    ew = Where(entry.file, entry.line, "expression")
+    try:
+        base = parse_inequality(proxy, entry.expression, entry.name, entry.source, ew)
+    except InputError as exc:
+        raise InputError(f"catalog entry '{entry.name}' does not fit this scenario's shape: {exc.message}", where,
+                         "choose an entry for this many settings and outcomes") from None
+    if not notes:
+        return parse_inequality(scenario, entry.expression, entry.name, entry.source, ew)
+    from .notation import render
+
+    shown = render(_carry_over(entry, scenario, base, pmap, maps)).inequality
+    shown.origin = (f"catalog entry {entry.name} read here with " + "; ".join(notes)
+                    + (" (as given by --match)" if explicit else " (matched by position; --match chooses)"))
+    return shown
+
+
+def _party_map(entry: CatalogEntry, scenario: Scenario, explicit: dict[str, str], where: Where,
+               mw: Where) -> tuple[dict[str, str], dict[str, str]]:
+    """Entry party -> scenario party (by --match, by name, else by position); the outcome part of --match."""
     names = scenario.party_names
     if len(entry.parties) != len(names):
         raise InputError(
@@ -95,12 +120,18 @@ def read_entry(entry: CatalogEntry, scenario: Scenario, match: str | None = None
         if len(pmap_x) != len(entry.parties) or len(set(pmap_x.values())) != len(names):
             raise InputError("--match must send every entry party to a different scenario party "
                              f"(entry parties {list(entry.parties)})", mw)
-        pmap = pmap_x
-    elif set(entry.parties) == set(names):
-        pmap = {p: p for p in entry.parties}
-    else:
-        pmap = dict(zip(entry.parties, names))
-    proxy_parties, maps, notes = [], [], []
+        return pmap_x, omap_x
+    if set(entry.parties) == set(names):
+        return {p: p for p in entry.parties}, omap_x
+    return dict(zip(entry.parties, names)), omap_x
+
+
+def _label_maps(entry: CatalogEntry, scenario: Scenario, pmap: dict[str, str], omap_x: dict[str, str],
+                mw: Where) -> tuple[Scenario, list[tuple[dict, dict]]]:
+    """A scenario in the entry's own labels, and per entry party (setting map, outcome map) to the scenario's."""
+    from .scenario import Party
+
+    proxy_parties, maps = [], []
     for ep in entry.parties:
         party = scenario.party(pmap[ep])
         n_out = len(party.outcomes)
@@ -111,16 +142,7 @@ def read_entry(entry: CatalogEntry, scenario: Scenario, match: str | None = None
         else:
             smap = dict(zip(e_sets, party.settings))
         if omap_x:
-            bad = [o for o in omap_x if o not in e_outs]
-            if bad:
-                raise InputError(f"--match names '{bad[0]}', neither an entry party {list(entry.parties)} "
-                                 f"nor an entry outcome {list(e_outs)}", mw)
-            from .inequality import _match_outcome
-
-            omap = {k: _match_outcome(v, party.outcomes) or v for k, v in omap_x.items()}
-            if set(omap) != set(e_outs) or set(omap.values()) != set(party.outcomes):
-                raise InputError(f"--match must send the entry's outcomes {list(e_outs)} one to one onto "
-                                 f"party '{party.name}''s outcomes {list(party.outcomes)}", mw)
+            omap = _explicit_outcomes(entry, party, e_outs, omap_x, mw)
         elif set(e_outs) == set(party.outcomes):
             omap = {o: o for o in e_outs}
         else:
@@ -128,17 +150,30 @@ def read_entry(entry: CatalogEntry, scenario: Scenario, match: str | None = None
         vals = tuple(Fraction(o) for o in e_outs) if n_out == 2 else None
         proxy_parties.append(Party(ep, e_sets, e_outs, vals))
         maps.append((smap, omap))
-    proxy = Scenario(tuple(proxy_parties))
-    notes = _mapping_words(entry.parties, pmap, maps)
-    ew = Where(entry.file, entry.line, "expression")
-    try:
-        base = parse_inequality(proxy, entry.expression, entry.name, entry.source, ew)
-    except InputError as exc:
-        raise InputError(f"catalog entry '{entry.name}' does not fit this scenario's shape: {exc.message}", where,
-                         "choose an entry for this many settings and outcomes") from None
-    # proxy coordinate -> scenario coordinate (scenario party order)
+    return Scenario(tuple(proxy_parties)), maps
+
+
+def _explicit_outcomes(entry: CatalogEntry, party, e_outs: tuple[str, ...], omap_x: dict[str, str],
+                       mw: Where) -> dict[str, str]:
+    bad = [o for o in omap_x if o not in e_outs]
+    if bad:
+        raise InputError(f"--match names '{bad[0]}', neither an entry party {list(entry.parties)} "
+                         f"nor an entry outcome {list(e_outs)}", mw)
+    from .inequality import _match_outcome
+
+    omap = {k: _match_outcome(v, party.outcomes) or v for k, v in omap_x.items()}
+    if set(omap) != set(e_outs) or set(omap.values()) != set(party.outcomes):
+        raise InputError(f"--match must send the entry's outcomes {list(e_outs)} one to one onto "
+                         f"party '{party.name}''s outcomes {list(party.outcomes)}", mw)
+    return omap
+
+
+def _carry_over(entry: CatalogEntry, scenario: Scenario, base: Inequality, pmap: dict[str, str],
+                maps: list[tuple[dict, dict]]) -> Inequality:
+    """The inequality parsed in the proxy scenario, moved coordinate by coordinate to the scenario's."""
+    names = scenario.party_names
     pos = [names.index(pmap[ep]) for ep in entry.parties]
-    coeffs = {}
+    coeffs: dict = {}
     for (s, a), c in base.coeffs.items():
         s2, a2 = [None] * len(names), [None] * len(names)
         for k, (x, o) in enumerate(zip(s, a)):
@@ -147,16 +182,8 @@ def read_entry(entry: CatalogEntry, scenario: Scenario, match: str | None = None
         key = (tuple(s2), tuple(a2))
         coeffs[key] = coeffs.get(key, Fraction(0)) + c
     marg = frozenset(Marginal(tuple(sorted((pmap[p] for p in m.parties), key=names.index))) for m in base.marginals)
-    ineq = Inequality(scenario, coeffs, base.bound, entry.name, "", entry.source, marg, base.sense, base.shift,
+    return Inequality(scenario, coeffs, base.bound, entry.name, "", entry.source, marg, base.sense, base.shift,
                       base.notation)
-    if not notes:
-        return parse_inequality(scenario, entry.expression, entry.name, entry.source, ew)
-    from .notation import render
-
-    shown = render(ineq).inequality
-    shown.origin = (f"catalog entry {entry.name} read here with " + "; ".join(notes)
-                    + (" (as given by --match)" if explicit else " (matched by position; --match chooses)"))
-    return shown
 
 
 def _mapping_words(parties, pmap, maps) -> list[str]:

@@ -266,7 +266,9 @@ def _catalog_names(P: Polytope, keyidx: dict) -> dict[int, tuple[str, str]]:
 
     perms = [permutation(sc, g.move) for g in generators(sc)]
     for name, entry in cat.items():
-        if sorted(entry.parties) != sorted(sc.party_names):
+        # same number of parties is enough: read_entry matches other names by position, and the
+        # orbit below holds every relabelled version (parties named Ann/Bo/Cy still find Mermin)
+        if len(entry.parties) != len(sc.party_names):
             continue
         try:
             ineq = entry.inequality(sc)

@@ -299,7 +299,7 @@ class Decomposition:
 
     def _cost(self, F: ClassRep) -> float:
         """A rough price of a face's ridge hull: it grows steeply with the points beyond a simplex."""
-        return 2.0 ** (int(np.count_nonzero(F.incidence)) - self.Y.shape[1])
+        return 2.0 ** min(int(np.count_nonzero(F.incidence)) - self.Y.shape[1], 900)  # no float overflow
 
     def _add(self, reps, queue, a, b) -> None:
         vals = _dot(self.Y, a)
