@@ -205,10 +205,11 @@ class Decomposition:
 
     def __init__(self, Y: np.ndarray, perms: np.ndarray, *, deadline: float | None = None,
                  direct_excess: int = 25, depth: int = 0, max_depth: int = 1, seed: int = 1,
-                 progress=None, on_class=None):
+                 progress=None, on_class=None, classes=None):
         self.Y = Y
+        self.classes = classes  # a GraphClasses (canon.py) instead of the listed group, for large groups
         self.perms = perms
-        self.inv = np.argsort(perms, axis=1) if len(perms) else perms
+        self.inv = np.argsort(perms, axis=1) if perms is not None and len(perms) else perms
         self.deadline = deadline
         self.direct_excess = direct_excess
         self.depth = depth
@@ -232,6 +233,12 @@ class Decomposition:
 
     def stabiliser(self, inc: np.ndarray) -> np.ndarray:
         return self.perms[(inc[self.inv] == inc).all(axis=1)]
+
+    def key_of(self, a, b) -> bytes:
+        """The class key of the facet a·y <= b (as :meth:`_add` files it)."""
+        if self.classes is not None:
+            return self.classes.key(a)[0]
+        return self.canonical(_dot(self.Y, a) == b)[0]
 
     def _check_time(self) -> None:
         if self.deadline is not None and time.perf_counter() > self.deadline:
@@ -309,6 +316,13 @@ class Decomposition:
         packed = np.packbits(inc).tobytes()
         if packed in self.member_of:  # a facet of a known class: no canonical form needed
             return
+        if self.classes is not None:  # large group: the canonical graph, and only the facets met are remembered
+            key, orbit = self.classes.key(a)
+            self.member_of[packed] = key
+            if key not in reps:
+                reps[key] = ClassRep(tuple(int(v) for v in a), int(b), inc, orbit, key)
+                queue.append(key)
+            return
         imgs = np.packbits(inc[self.inv], axis=1)
         uniq = np.unique(imgs, axis=0)
         key = uniq[0].tobytes()  # np.unique sorts rows lexicographically: the smallest image
@@ -325,7 +339,12 @@ class Decomposition:
         j = next(i for i, v in enumerate(F.a) if v)  # drop a coordinate the hyperplane determines
         keep = [i for i in range(k) if i != j]
         Z = Y[idx][:, keep]
-        stab = self.stabiliser(F.incidence)
+        if self.classes is not None:
+            stab = self.classes.stabiliser_points(F.a)
+            if len(stab) * F.orbit != self.classes.order:
+                raise PolytopeError("orbit and stabiliser sizes disagree with the group order")
+        else:
+            stab = self.stabiliser(F.incidence)
         pos = -np.ones(len(Y), dtype=np.int64)
         pos[idx] = np.arange(len(idx))
         sub = np.unique(pos[stab[:, idx]], axis=0)
