@@ -169,6 +169,49 @@ def first_facet(Y: np.ndarray, rng: np.random.Generator) -> tuple[tuple[int, ...
     raise PolytopeError("gift wrapping did not reach a facet")
 
 
+def ray_facet(Y: np.ndarray, rng: np.random.Generator) -> tuple[tuple[int, ...], int]:
+    """The facet a random ray from the centroid leaves conv(Y) through (an LP finds it, exact checks decide).
+
+    Gift wrapping from a random direction tends to land on the facets with the
+    most points (positivity), which are the dearest to expand; a ray from an
+    interior point meets facets in proportion to their solid angle, so the first
+    classes are cheap ones.  HiGHS gives the exit point and the points tight
+    there; the facet through them is computed exactly (integer null space) and
+    checked on every point; anything short of a facet falls back to gift wrapping.
+    """
+    from scipy.optimize import linprog
+
+    n, k = Y.shape
+    Yf = Y.astype(float)
+    c = Yf.mean(axis=0)
+    r = rng.normal(size=k)
+    # max t: sum_i lam_i y_i - t r = c, sum lam = 1, lam >= 0
+    A = np.zeros((k + 1, n + 1))
+    A[:k, :n] = Yf.T
+    A[:k, n] = -r
+    A[k, :n] = 1
+    cost = np.zeros(n + 1)
+    cost[n] = -1
+    res = linprog(cost, A_eq=A, b_eq=np.append(c, 1.0), bounds=[(0, None)] * n + [(0, None)], method="highs")
+    if res.status != 0:
+        return first_facet(Y, rng)
+    h = -np.asarray(res.eqlin.marginals[:k])
+    vals = Yf @ h
+    top = float(np.max(vals))
+    tight = np.flatnonzero(vals >= top - 1e-7 * max(1.0, abs(top), float(np.max(np.abs(vals)))))
+    T = Y[tight]
+    if affine_rank(T) == k - 1:
+        X, nullity = _zmat([[int(v) for v in t] + [-1] for t in T], k + 1).nullspace()
+        if nullity == 1:
+            v = primitive([int(X[i, 0]) for i in range(k + 1)])
+            a, b = list(v[:-1]), v[-1]
+            for sgn in (1, -1):
+                aa, bb = [sgn * x for x in a], sgn * b
+                if not np.any(_dot(Y, aa) > bb):
+                    return tuple(aa), bb
+    return first_facet(Y, rng)
+
+
 def _hull_ints(Z: np.ndarray, deadline: float | None = None) -> list[tuple[tuple[int, ...], int]]:
     """Facets a·z <= b of conv(Z) (full-dimensional, integer points), by cddlib in rationals.
 
@@ -205,9 +248,10 @@ class Decomposition:
 
     def __init__(self, Y: np.ndarray, perms: np.ndarray, *, deadline: float | None = None,
                  direct_excess: int = 25, depth: int = 0, max_depth: int = 1, seed: int = 1,
-                 progress=None, on_class=None, classes=None):
+                 progress=None, on_class=None, classes=None, seeds: int = 1):
         self.Y = Y
         self.classes = classes  # a GraphClasses (canon.py) instead of the listed group, for large groups
+        self.seeds = seeds  # first facets from that many random directions (the cheapest are expanded first)
         self.perms = perms
         self.inv = np.argsort(perms, axis=1) if perms is not None and len(perms) else perms
         self.deadline = deadline
@@ -251,7 +295,8 @@ class Decomposition:
         Y = self.Y
         reps: dict[bytes, ClassRep] = {}
         queue: list[bytes] = []
-        seeds = list(start or []) or [first_facet(Y, self.rng)]
+        seeds = list(start or []) or ([first_facet(Y, self.rng)] if self.seeds <= 1 else
+                                      [ray_facet(Y, self.rng) for _ in range(self.seeds)])
         for a, b in seeds:
             self._add(reps, queue, a, b)
         done = set(done_keys or ())

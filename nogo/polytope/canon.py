@@ -73,9 +73,14 @@ class _Structure:
     d: int
 
 
-def scenario_graph(scenario, pinned=()) -> _Structure:
-    """The forest party – setting – outcome with one node per probability coordinate (see the module docstring)."""
-    pinned = set(pinned)
+def scenario_graph(scenario) -> _Structure:
+    """The forest party – setting – outcome with one node per probability coordinate (see the module docstring).
+
+    The level colours here are party / setting / outcome; :class:`GraphClasses`
+    refines them to the orbits of the verified group on the forest's nodes (so a
+    read-out setting that no verified move exchanges is coloured apart).
+    """
+    pinned: set = set()
     nid = 0
     parties, free, fixed, outs = set(), set(), set(), set()
     adj: dict[int, list[int]] = {}
@@ -118,14 +123,15 @@ class GraphClasses:
     (coordinate i goes to perms[g][i]).
     """
 
-    def __init__(self, scenario, pinned, perms: list[list[int]], X: np.ndarray, Gfull: np.ndarray):
+    def __init__(self, scenario, perms: list[list[int]], X: np.ndarray, Gfull: np.ndarray):
         import flint
         import pynauty
 
         self._nauty = pynauty
-        self.st = scenario_graph(scenario, pinned)
+        self.st = scenario_graph(scenario)
         d = self.st.d
         self.perms = [list(map(int, p)) for p in perms]
+        self._colour_by_orbits()
         g = pynauty.Graph(self.st.n, adjacency_dict=self.st.adjacency,
                           vertex_coloring=self.st.cells + [set(range(self.st.coord0, self.st.n))])
         gens, s1, s2, _, _ = pynauty.autgrp(g)
@@ -153,17 +159,8 @@ class GraphClasses:
         self.proj = np.array([[int(Pq[i, j] * den) for j in range(d)] for i in range(d)], dtype=object)
         self.Gfull = np.asarray(Gfull, dtype=object)
 
-    @staticmethod
-    def _key(row) -> tuple:
-        return tuple(int(v) for v in row)
-
-    def _is_automorphism(self, perm: list[int]) -> bool:
-        """The coordinate permutation extends to an automorphism of the coloured forest.
-
-        Each outcome node is known by its set of coordinates; the permutation must
-        map every such set onto another one, and the induced map of outcome nodes
-        must carry settings to settings (of the same colour) and parties to parties.
-        """
+    def _forest_image(self, perm: list[int]) -> dict[int, int] | None:
+        """The map of forest nodes a coordinate permutation induces, or None when it induces none."""
         st = self.st
         around: dict[int, set[int]] = {}
         for i in range(st.d):
@@ -172,18 +169,57 @@ class GraphClasses:
         by_set = {frozenset(v): u for u, v in around.items()}
         image = {u: by_set.get(frozenset(perm[i] for i in v)) for u, v in around.items()}
         if None in image.values() or len(set(image.values())) != len(image):
-            return False
+            return None
         parent = {c: u for u in range(st.coord0) for c in st.adjacency[u]}
-        colour = {v: i for i, cell in enumerate(st.cells) for v in cell}
-        for level in range(2):  # outcome -> setting, then setting -> party
+        level = image
+        for _ in range(2):  # outcome -> setting, then setting -> party
             up: dict[int, int] = {}
-            for u, v in image.items():
-                if up.setdefault(parent[u], parent[v]) != parent[v] or colour[parent[u]] != colour[parent[v]]:
-                    return False
+            for u, v in level.items():
+                if up.setdefault(parent[u], parent[v]) != parent[v]:
+                    return None
             if len(set(up.values())) != len(up):
-                return False
-            image = up
-        return True
+                return None
+            image.update(up)
+            level = up
+        return image
+
+    def _colour_by_orbits(self) -> None:
+        """Refine the level colours to the orbits of the verified moves on the forest's nodes."""
+        st = self.st
+        parent = list(range(st.coord0))
+
+        def find(i):
+            while parent[i] != i:
+                parent[i] = parent[parent[i]]
+                i = parent[i]
+            return i
+        for p in self.perms:
+            image = self._forest_image(p)
+            if image is None:
+                raise PolytopeError("a verified symmetry does not move the scenario's forest")
+            for u, v in image.items():
+                ru, rv = find(u), find(v)
+                if ru != rv:
+                    parent[ru] = rv
+        cells = []
+        for cell in st.cells:
+            orbits: dict[int, set[int]] = {}
+            for u in cell:
+                orbits.setdefault(find(u), set()).add(u)
+            cells += sorted(orbits.values(), key=min)
+        st.cells = cells
+
+    @staticmethod
+    def _key(row) -> tuple:
+        return tuple(int(v) for v in row)
+
+    def _is_automorphism(self, perm: list[int]) -> bool:
+        """The coordinate permutation extends to an automorphism of the coloured forest."""
+        image = self._forest_image(perm)
+        if image is None:
+            return False
+        colour = {v: i for i, cell in enumerate(self.st.cells) for v in cell}
+        return all(colour[u] == colour[v] for u, v in image.items())
 
     def canonical_vector(self, a) -> tuple[int, ...]:
         """The facet's coefficients in full coordinates, projected onto the direction space, coprime integers."""

@@ -29,6 +29,7 @@ import numpy as np
 
 from ..model import LinearModel
 from .adjacency import Decomposition, OutOfTime, orbit_rows
+from .canon import permutation_group_order
 from .derive import _perm_of, _Run, derive_polytope
 from .group import enumerate_group
 from .hull import _coords_matrix, int_matmul
@@ -42,13 +43,17 @@ _MANY = 12  # points per dimension above which the plain hull is used
 def derive_symmetric(model: LinearModel, frame: str = "auto", *, generators: list | None = None, seed: int = 1,
                      time_limit: float | None = None, workers: int | None = None,
                      progress: Progress | None = None, chunk: int = 64, store=None,
-                     force: bool = False) -> Polytope:
+                     force: bool = False, classes: str = "auto") -> Polytope:
     """The exact facets of the model's set of behaviours, class by class (see the module docstring).
 
     ``generators``: :class:`nogo.symmetry.Generator` moves (e.g. from
     :func:`nogo.symmetry.bundle_generators`).  When none of them lifts to a
     verified symmetry of the model, the plain route runs instead.
     ``force``: decompose even when there are many points per dimension.
+    ``classes``: how two facets are put in one class: ``"list"`` by the group
+    listed on the points (its smallest image), ``"graph"`` by a canonical
+    coloured graph (:mod:`.canon`, nauty; the group is never listed), ``"auto"``
+    the graph when the group has more than 20,000 elements.
     ``store``: an optional :class:`nogo.store.RunPieces` where each closed
     class is written as it is found and from which an interrupted run resumes.
 
@@ -88,10 +93,96 @@ def derive_symmetric(model: LinearModel, frame: str = "auto", *, generators: lis
     if unlifted:
         run.notes.append("relabellings that are not symmetries of this model (exact check): "
                          + ", ".join(g.label for g in unlifted))
-    return _classes(run, lifted, store)
+    return _classes(run, lifted, store, classes)
 
 
-def _classes(run: _Run, lifted: list, store) -> Polytope:
+_LIST_LIMIT = 20_000  # group elements above which classes are told apart by the canonical graph
+_EXPAND_LIMIT = 300_000  # facets above which only the class representatives are listed
+
+
+class _Graph:
+    """The group as generators and the canonical graph (:mod:`.canon`), where listing it would not fit."""
+
+    def __init__(self, run: _Run, points, lifted):
+        from .canon import GraphClasses
+        from .group import _integer_points, move_matrix
+
+        fr = run.fr
+        Gfull = _functional_ints(fr)
+        self.classes = GraphClasses(run.sc, run.perms, _integer_points(points), Gfull)
+        self.order = self.classes.order
+        self.generators = [g.label for g in lifted]
+        self.moves = [move_matrix(fr, p) for p in run.perms]
+        self.perms_on_coords = run.perms
+
+    def point_orbits(self, points) -> np.ndarray:
+        """The smallest point of each point's orbit under the generators (union of their cycles)."""
+        from .group import _integer_points, point_permutation
+
+        P = _integer_points(points)
+        index = {p: i for i, p in enumerate(points)}
+        label = np.arange(len(points))
+        parent = list(range(len(points)))
+
+        def find(i):
+            while parent[i] != i:
+                parent[i] = parent[parent[i]]
+                i = parent[i]
+            return i
+        for perm in self.perms_on_coords:
+            pp = point_permutation(points, index, perm, P)
+            if pp is None:
+                raise PolytopeError("a verified symmetry does not map the points onto themselves")
+            for i, j in enumerate(pp):
+                ri, rj = find(i), find(int(j))
+                if ri != rj:
+                    parent[max(ri, rj)] = min(ri, rj)
+        for i in range(len(points)):
+            label[i] = find(i)
+        return label
+
+
+def _functional_ints(fr) -> np.ndarray:
+    from .ints import _lcm
+
+    vecs = [[Fraction(v) for v in f.vector] for f in fr.functionals]
+    L = _lcm(v.denominator for r in vecs for v in r)
+    return np.array([[int(v * L) for v in r] for r in vecs], dtype=object)
+
+
+def _orbit_bfs(a, b, moves: list[np.ndarray], limit: int) -> np.ndarray:
+    """Every image of (a, b) under the group the move matrices generate, breadth first, as primitive rows.
+
+    int64 while |row|·|M|·width stays below 2^62 (rows are primitive, so they stay bounded), else Python integers.
+    """
+    start = np.array([int(v) for v in list(a) + [b]], dtype=object)
+    mmax = max(int(np.max(np.abs(M))) for M in moves) if moves else 0
+    seen = {tuple(int(v) for v in start)}
+    frontier = start[None, :]
+    while len(frontier):
+        rmax = int(np.max(np.abs(frontier))) if frontier.size else 0
+        small = rmax * mmax * frontier.shape[1] < 2**62
+        F = frontier.astype(np.int64) if small else frontier.astype(object)
+        nxt = []
+        for M in moves:
+            imgs = F @ (M.astype(np.int64) if small else M.astype(object))
+            if small:
+                g = np.gcd.reduce(np.abs(imgs), axis=1)
+                g[g == 0] = 1
+                rows = [tuple(int(v) for v in r) for r in imgs // g[:, None]]
+            else:
+                rows = [primitive([int(v) for v in r]) for r in imgs]
+            for t in rows:
+                if t not in seen:
+                    seen.add(t)
+                    nxt.append(t)
+        if len(seen) > limit:
+            raise PolytopeError(f"a class has more than {limit} facets")
+        frontier = np.array(nxt, dtype=object).reshape(len(nxt), len(start))
+    return np.array(sorted(seen), dtype=object)
+
+
+def _classes(run: _Run, lifted: list, store, how: str = "auto") -> Polytope:
     fr, k = run.fr, run.fr.dim
     stats, notes = run.stats, run.notes
     stats["route"] = "symmetric"
@@ -102,13 +193,23 @@ def _classes(run: _Run, lifted: list, store) -> Polytope:
         points = list(run.points)
         Y, den = _coords_matrix(fr, points)
         Y = Y.astype(np.int64) if int(np.max(np.abs(Y))) < 2**40 else Y
-        group, refused = enumerate_group(points, fr, [(g.label, p) for g, p in zip(lifted, run.perms)])
-        if refused:
-            raise PolytopeError("a verified symmetry of the model does not map the certified points onto themselves")
+        order = permutation_group_order(run.perms, run.d) if how == "auto" else None
+        if how == "graph" or (how == "auto" and order > _LIST_LIMIT):
+            group = _Graph(run, points, lifted)
+            stats["classes by"] = "canonical graph (nauty)"
+            stats["graph group order"] = group.classes.graph_order
+            dec_args = dict(classes=group.classes, max_depth=4, seeds=16)
+        else:
+            group, refused = enumerate_group(points, fr, [(g.label, p) for g, p in zip(lifted, run.perms)])
+            if refused:
+                raise PolytopeError("a verified symmetry of the model does not map the certified points onto "
+                                    "themselves")
+            stats["classes by"] = "smallest image under the listed group"
+            dec_args = dict()
         stats["group order"] = group.order
         t0 = time.perf_counter()
-        dec = Decomposition(Y, group.perms, deadline=run.deadline, seed=int(run.rng.integers(1 << 30)),
-                            progress=run.report)
+        dec = Decomposition(Y, getattr(group, "perms", None), deadline=run.deadline,
+                            seed=int(run.rng.integers(1 << 30)), progress=run.report, **dec_args)
         resumed = store.load(len(points)) if store is not None else None
         if store is not None:
             dec.on_class = lambda F, reps: store.save(len(points), _frame_form(F, den), F.orbit, sorted(
@@ -117,8 +218,7 @@ def _classes(run: _Run, lifted: list, store) -> Polytope:
             if resumed:
                 stats["classes resumed"] = len(resumed["closed"])
                 reps = dec.run(start=[_int_form(ab, den) for ab, _ in resumed["known"]],
-                               done_keys={dec.canonical(_incidence(Y, _int_form(ab, den)))[0]
-                                          for ab in resumed["closed"]})
+                               done_keys={dec.key_of(*_int_form(ab, den)) for ab in resumed["closed"]})
             else:
                 reps = dec.run()
         except OutOfTime:
@@ -178,9 +278,16 @@ def _expand(run: _Run, points, Y, den, reps, forms, group, verified, status) -> 
     fr, k = run.fr, run.fr.dim
     facets: list[HullFacet] = []
     classes: list[tuple[int, list[int]]] = []
+    listed = not isinstance(group, _Graph)
+    only_reps = not listed and sum(r.orbit for r in reps) > _EXPAND_LIMIT
     for r, (a, b) in zip(reps, forms):
-        rows = orbit_rows(a, b, group.mats)
-        if status == "complete" and len(rows) != r.orbit:
+        if listed:
+            rows = orbit_rows(a, b, group.mats)
+        elif only_reps:
+            rows = [list(a) + [b]]
+        else:
+            rows = _orbit_bfs(a, b, group.moves, r.orbit)
+        if status == "complete" and len(rows) != r.orbit and not only_reps:
             raise PolytopeError(f"a class expands to {len(rows)} inequalities but its orbit has {r.orbit} facets")
         ans = verified.get((a, b))
         start = len(facets)
@@ -209,7 +316,10 @@ def _expand(run: _Run, points, Y, den, reps, forms, group, verified, status) -> 
             M = _zmat([[1] + [int(v) for v in Y[j]] for j in on], k + 1)
             if M.rank() != k:
                 raise PolytopeError("a class representative is not tight on a facet's worth of points")
-    vertices = _vertices(points, Y, den, facets, group, status)
+    vertices = _vertices(points, Y, den, facets, group, "partial" if only_reps else status)
+    if only_reps:
+        run.notes.append(f"{sum(r.orbit for r in reps):,} facets in {len(reps)} classes: one representative per "
+                         "class is listed (class sizes from the stabilisers); every certified point is kept")
     if len(vertices) < len(points):
         run.notes.append(f"{len(points) - len(vertices)} certified points found on the way are not vertices")
     if status == "partial":
@@ -221,6 +331,7 @@ def _expand(run: _Run, points, Y, den, reps, forms, group, verified, status) -> 
     P = Polytope(run.sc, run.model.label, run.model.assumptions, fr, vertices, run.equations, facets, status,
                  st, run.notes, run.fp)
     P.classes = classes
+    P.class_sizes = [r.orbit for r in reps]
     P.group_order = group.order
     P.group_generators = list(group.generators)
     return P
@@ -234,7 +345,8 @@ def _vertices(points, Y, den, facets, group, status):
     A = np.array([f.a for f in facets], dtype=np.int64)
     b = np.array([f.b for f in facets], dtype=np.int64) * den
     is_vertex = {}
-    orbit_of = np.min(group.perms, axis=0)  # the smallest image of each point: one label per orbit
+    # the smallest image of each point: one label per orbit (each point its own label without the listed group)
+    orbit_of = np.min(group.perms, axis=0) if not isinstance(group, _Graph) else group.point_orbits(points)
     keep = []
     for j in range(len(points)):
         o = int(orbit_of[j])
