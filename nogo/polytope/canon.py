@@ -223,9 +223,16 @@ class GraphClasses:
 
     def canonical_vector(self, a) -> tuple[int, ...]:
         """The facet's coefficients in full coordinates, projected onto the direction space, coprime integers."""
-        c = np.array([int(v) for v in a], dtype=object).dot(self.Gfull)
-        v = self.proj.dot(c)
+        return self.canonical_full(np.array([int(v) for v in a], dtype=object).dot(self.Gfull))
+
+    def canonical_full(self, c) -> tuple[int, ...]:
+        """:meth:`canonical_vector` for integer coefficients c over the probability coordinates."""
+        v = self.proj.dot(np.array([int(x) for x in c], dtype=object))
         return primitive([int(x) for x in v])
+
+    def key_full(self, c) -> tuple[bytes, int]:
+        """:meth:`key` for integer coefficients c over the probability coordinates (c·p <= bound)."""
+        return self._key_of(self.canonical_full(c))
 
     def _graph(self, vec):
         st = self.st
@@ -239,7 +246,10 @@ class GraphClasses:
 
     def key(self, a) -> tuple[bytes, int]:
         """(class key, orbit size from nauty's stabiliser order) of the facet with frame coefficients *a*."""
-        g, values = self._graph(self.canonical_vector(a))
+        return self._key_of(self.canonical_vector(a))
+
+    def _key_of(self, vec) -> tuple[bytes, int]:
+        g, values = self._graph(vec)
         cert = self._nauty.certificate(g)
         _, s1, s2, _, _ = self._nauty.autgrp(g)
         stab = _order(s1, s2)
@@ -249,7 +259,14 @@ class GraphClasses:
 
     def stabiliser_points(self, a, limit: int = 200_000) -> np.ndarray:
         """The stabiliser of the facet as permutations of the points (listed by closure; exact order)."""
-        g, _ = self._graph(self.canonical_vector(a))
+        return self._stabiliser(self.canonical_vector(a), limit)
+
+    def stabiliser_points_full(self, c, limit: int = 200_000) -> np.ndarray:
+        """:meth:`stabiliser_points` for integer coefficients c over the probability coordinates."""
+        return self._stabiliser(self.canonical_full(c), limit)
+
+    def _stabiliser(self, vec, limit: int) -> np.ndarray:
+        g, _ = self._graph(vec)
         gens = self._nauty.autgrp(g)[0]
         st = self.st
         pp = []

@@ -195,6 +195,11 @@ def _classes(run: _Run, lifted: list, store, how: str = "auto") -> Polytope:
         Y = Y.astype(np.int64) if int(np.max(np.abs(Y))) < 2**40 else Y
         order = permutation_group_order(run.perms, run.d) if how == "auto" else None
         if how == "graph" or (how == "auto" and order > _LIST_LIMIT):
+            from .canon import has_nauty
+
+            if not has_nauty():
+                raise PolytopeError(f"the symmetry group has {order} elements, too many to list; telling facet "
+                                    "classes apart needs pynauty (pip install pynauty)")
             group = _Graph(run, points, lifted)
             stats["classes by"] = "canonical graph (nauty)"
             stats["graph group order"] = group.classes.graph_order
