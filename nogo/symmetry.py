@@ -232,16 +232,21 @@ def lift_to_model(model, gen: Generator) -> list[int] | None:
         return None
     sc = model.scenario
     perm_obs = permutation(sc, gen.move)
-    index = {(c.settings, tuple(sorted(zip(c.events, c.values)))): j for j, c in enumerate(model.columns)}
+    cols = model.extra.get("_lift_columns")
+    if cols is None:  # the columns described once per model (lazy columns are rebuilt on every access)
+        cols = model.extra["_lift_columns"] = [(c.settings, tuple(zip(c.events, c.values))) for c in model.columns]
+    index = model.extra.get("_lift_index")
+    if index is None:
+        index = model.extra["_lift_index"] = {(s, tuple(sorted(ev))): j for j, (s, ev) in enumerate(cols)}
     for inner_too in (True, False):
         maps = _event_maps(sc, gen, inner_too)
         if maps is None:
             return None
         rename, value, settings_of = maps
         sigma = []
-        for c in model.columns:
-            s2 = settings_of(c.settings)
-            key = (s2, tuple(sorted((rename(e), value(e, v, c.settings)) for e, v in zip(c.events, c.values))))
+        for c_settings, c_events in cols:
+            s2 = settings_of(c_settings)
+            key = (s2, tuple(sorted((rename(e), value(e, v, c_settings)) for e, v in c_events)))
             j = index.get(key)
             if j is None:
                 break

@@ -136,6 +136,8 @@ class _Run:
         self.points: dict[Point, None] = {}
         self.perms: list[list[int]] = []
         self.lifted = False
+        self.max_tries = 0  # at most this many random directions (0: 50·(dim + 10))
+        self.patience = 0  # random directions without a new point before stopping (0: the plain route's 40 or 2·dim)
 
     def out_of_time(self) -> bool:
         return self.deadline is not None and time.perf_counter() > self.deadline
@@ -203,8 +205,9 @@ class _Run:
         self.notes.append(f"no-signalling holds on this set (exact check on its affine hull): {'yes' if ns else 'no'}")
         self.t_vertices = t0 = time.perf_counter()
         self.G = G = np.array([[float(v) for v in f.vector] for f in fr.functionals]).reshape(k, d)
-        patience, stale, tries = max(40, 2 * k), 0, 0
-        while stale < patience and tries < 50 * (k + 10) and not self.out_of_time():
+        patience, stale, tries = self.patience or max(40, 2 * k), 0, 0
+        most = self.max_tries or 50 * (k + 10)
+        while stale < patience and tries < most and not self.out_of_time():
             batch = []
             for _ in range(16):
                 c = rng.normal(size=k) @ G

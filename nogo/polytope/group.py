@@ -111,29 +111,52 @@ def enumerate_group(points: list[Point], frame: Frame, gens: list[tuple[str, lis
             kept.append((label, pp, move_matrix(frame, perm)))
     ident = np.arange(n, dtype=np.int64)
     I = np.eye(k + 1, dtype=np.int64)
-    perms = [ident]
-    mats = [I]
+    small = all(m.dtype != object for _, _, m in kept)
+    bound = max([int(np.max(np.abs(m))) for _, _, m in kept] + [1])
+    perms = [ident[None, :]]
+    mats = [I[None, :, :] if small else np.array([I], dtype=object)]
     seen = {ident.tobytes()}
-    frontier = [0]
-    while frontier:
-        nxt = []
-        for e in frontier:
-            for _, sp_, sm in kept:
-                p = sp_[perms[e]]  # first e, then the generator
-                key = p.tobytes()
-                if key in seen:
-                    continue
-                seen.add(key)
-                if len(seen) > limit:
-                    raise RuntimeError(f"symmetry group larger than {limit} elements")
-                perms.append(p)
-                mats.append(_mul(mats[e], sm))
-                nxt.append(len(perms) - 1)
-        frontier = nxt
+    frontier_p, frontier_m = perms[0], mats[0]
+    count = 1
+    while len(frontier_p):
+        nxt_p, nxt_m = [], []
+        for _, sp_, sm in kept:
+            P = sp_[frontier_p]  # first the element, then the generator (one level at a time)
+            fresh = []
+            for i, row in enumerate(P):
+                key = row.tobytes()
+                if key not in seen:
+                    seen.add(key)
+                    fresh.append(i)
+            if not fresh:
+                continue
+            count += len(fresh)
+            if count > limit:
+                raise RuntimeError(f"symmetry group larger than {limit} elements")
+            Mf = frontier_m[fresh]
+            mmax = int(np.max(np.abs(Mf))) if small else 0
+            if small and mmax * bound * (k + 1) < _SAFE:
+                prod = Mf @ sm
+                g = np.gcd.reduce(np.abs(prod).reshape(len(fresh), -1), axis=1)
+                g[g == 0] = 1
+                prod = prod // g[:, None, None]
+            else:
+                prod = np.array([_mul(m, sm) for m in Mf], dtype=object)
+            nxt_p.append(P[fresh])
+            nxt_m.append(prod)
+        if not nxt_p:
+            break
+        frontier_p = np.concatenate(nxt_p)
+        if any(m.dtype == object for m in nxt_m):
+            small = False
+            frontier_m = np.concatenate([m.astype(object) for m in nxt_m])
+        else:
+            frontier_m = np.concatenate(nxt_m)
+        perms.append(frontier_p)
+        mats.append(frontier_m)
     if any(m.dtype == object for m in mats):
-        M = np.empty((len(mats), k + 1, k + 1), dtype=object)
-        for i, m in enumerate(mats):
-            M[i] = m.astype(object)
+        M = np.concatenate([m.astype(object) for m in mats])
     else:
-        M = np.stack(mats)
+        M = np.concatenate(mats)
+    perms = list(np.concatenate(perms))
     return PointGroup(np.stack(perms), M, [label for label, _, _ in kept]), refused

@@ -78,6 +78,9 @@ def derive_symmetric(model: LinearModel, frame: str = "auto", *, generators: lis
         P.notes.append("no relabelling is a verified symmetry of this model: the plain hull was used")
         return P
     run = _Run(model, seed, time_limit, workers, progress, chunk)
+    # few random directions: the points are closed under the verified group next, and every class
+    # representative is asked of the oracle, which returns any point still missing (step 4)
+    run.patience, run.max_tries = 16, 48
     run.discover(frame)
     sc = model.scenario
     run.perms = [_perm_of(sc, g.move) for g in lifted]
