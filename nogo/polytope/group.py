@@ -60,7 +60,7 @@ def _mul(A: np.ndarray, B: np.ndarray) -> np.ndarray:
 @dataclass
 class PointGroup:
     perms: np.ndarray  # order × n: element g sends point i to perms[g, i]
-    mats: np.ndarray  # order × (k+1) × (k+1): (a, b) -> (a, b) @ mats[g] for the same element
+    mats: np.ndarray | None  # order × (k+1) × (k+1): (a, b) -> (a, b) @ mats[g] for the same element (if asked)
     generators: list[str]  # labels of the generators used
 
     @property
@@ -96,7 +96,7 @@ def point_permutation(points: list[Point], index: dict, perm: list[int], P: np.n
 
 
 def enumerate_group(points: list[Point], frame: Frame, gens: list[tuple[str, list[int]]],
-                    limit: int = 400_000) -> tuple[PointGroup, list[str]]:
+                    limit: int = 400_000, with_mats: bool = True) -> tuple[PointGroup, list[str]]:
     """The group the generators (label, coordinate permutation) generate on *points*; also the labels refused."""
     index = {p: i for i, p in enumerate(points)}
     n, k = len(points), frame.dim
@@ -108,7 +108,7 @@ def enumerate_group(points: list[Point], frame: Frame, gens: list[tuple[str, lis
         if pp is None:
             refused.append(label)
         else:
-            kept.append((label, pp, move_matrix(frame, perm)))
+            kept.append((label, pp, move_matrix(frame, perm) if with_mats else np.eye(1, dtype=np.int64)))
     ident = np.arange(n, dtype=np.int64)
     I = np.eye(k + 1, dtype=np.int64)
     small = all(m.dtype != object for _, _, m in kept)
@@ -133,6 +133,10 @@ def enumerate_group(points: list[Point], frame: Frame, gens: list[tuple[str, lis
             count += len(fresh)
             if count > limit:
                 raise RuntimeError(f"symmetry group larger than {limit} elements")
+            if not with_mats:
+                nxt_p.append(P[fresh])
+                nxt_m.append(frontier_m[:0])
+                continue
             Mf = frontier_m[fresh]
             mmax = int(np.max(np.abs(Mf))) if small else 0
             if small and mmax * bound * (k + 1) < _SAFE:
@@ -159,4 +163,6 @@ def enumerate_group(points: list[Point], frame: Frame, gens: list[tuple[str, lis
     else:
         M = np.concatenate(mats)
     perms = list(np.concatenate(perms))
+    if not with_mats:
+        M = None
     return PointGroup(np.stack(perms), M, [label for label, _, _ in kept]), refused

@@ -29,9 +29,8 @@ import numpy as np
 
 from ..model import LinearModel
 from .adjacency import Decomposition, OutOfTime, orbit_rows
-from .canon import permutation_group_order
 from .derive import _perm_of, _Run, derive_polytope
-from .group import enumerate_group
+from .group import enumerate_group, move_matrix
 from .hull import _coords_matrix, int_matmul
 from .ints import PolytopeError, Progress, _zmat, primitive
 from .result import HullFacet, Polytope
@@ -53,7 +52,7 @@ def derive_symmetric(model: LinearModel, frame: str = "auto", *, generators: lis
     ``classes``: how two facets are put in one class: ``"list"`` by the group
     listed on the points (its smallest image), ``"graph"`` by a canonical
     coloured graph (:mod:`.canon`, nauty; the group is never listed), ``"auto"``
-    the graph when the group has more than 20,000 elements.
+    the graph when the group has more than 20,000 elements (listing stops there).
     ``store``: an optional :class:`nogo.store.RunPieces` where each closed
     class is written as it is found and from which an interrupted run resumes.
 
@@ -81,10 +80,10 @@ def derive_symmetric(model: LinearModel, frame: str = "auto", *, generators: lis
     # few random directions: the points are closed under the verified group next, and every class
     # representative is asked of the oracle, which returns any point still missing (step 4)
     run.patience, run.max_tries = 16, 48
-    run.discover(frame)
     sc = model.scenario
     run.perms = [_perm_of(sc, g.move) for g in lifted]
     run.lifted = True
+    run.discover(frame)
     run.close_under(run.perms, lifted=True)
     run.stats["times"]["vertices"] = time.perf_counter() - run.t_vertices
     k = run.fr.dim
@@ -161,6 +160,8 @@ def _orbit_bfs(a, b, moves: list[np.ndarray], limit: int) -> np.ndarray:
     start = np.array([int(v) for v in list(a) + [b]], dtype=object)
     mmax = max(int(np.max(np.abs(M))) for M in moves) if moves else 0
     seen = {tuple(int(v) for v in start)}
+    seen_b = {np.array([int(v) for v in start], dtype=np.int64).tobytes()} if all(
+        abs(int(v)) < 2**62 for v in start) else set()
     frontier = start[None, :]
     while len(frontier):
         rmax = int(np.max(np.abs(frontier))) if frontier.size else 0
@@ -172,9 +173,17 @@ def _orbit_bfs(a, b, moves: list[np.ndarray], limit: int) -> np.ndarray:
             if small:
                 g = np.gcd.reduce(np.abs(imgs), axis=1)
                 g[g == 0] = 1
-                rows = [tuple(int(v) for v in r) for r in imgs // g[:, None]]
-            else:
-                rows = [primitive([int(v) for v in r]) for r in imgs]
+                red = imgs // g[:, None]
+                for r in red:  # int64 rows compared as bytes (exact; the tuple is built for new rows only)
+                    key = r.tobytes()
+                    if key not in seen_b:
+                        seen_b.add(key)
+                        t = tuple(int(v) for v in r)
+                        if t not in seen:  # (a row first met on the Python-integer path)
+                            seen.add(t)
+                            nxt.append(t)
+                continue
+            rows = [primitive([int(v) for v in r]) for r in imgs]
             for t in rows:
                 if t not in seen:
                     seen.add(t)
@@ -196,25 +205,33 @@ def _classes(run: _Run, lifted: list, store, how: str = "auto") -> Polytope:
         points = list(run.points)
         Y, den = _coords_matrix(fr, points)
         Y = Y.astype(np.int64) if int(np.max(np.abs(Y))) < 2**40 else Y
-        order = permutation_group_order(run.perms, run.d) if how == "auto" else None
-        if how == "graph" or (how == "auto" and order > _LIST_LIMIT):
+        group = None
+        t_group = time.perf_counter()
+        if how in ("auto", "list"):
+            try:  # listed up to _LIST_LIMIT elements (the enumeration stops there)
+                group, refused = enumerate_group(points, fr, [(g.label, p) for g, p in zip(lifted, run.perms)],
+                                                 limit=_LIST_LIMIT if how == "auto" else 400_000,
+                                                 with_mats=False)
+            except RuntimeError:
+                group = None
+            else:
+                if refused:
+                    raise PolytopeError("a verified symmetry of the model does not map the certified points onto "
+                                        "themselves")
+                stats["classes by"] = "smallest image under the listed group"
+                dec_args = dict()
+        if group is None:
             from .canon import has_nauty
 
             if not has_nauty():
-                raise PolytopeError(f"the symmetry group has {order} elements, too many to list; telling facet "
-                                    "classes apart needs pynauty (pip install pynauty)")
+                raise PolytopeError(f"the symmetry group has more than {_LIST_LIMIT} elements, too many to list; "
+                                    "telling facet classes apart needs pynauty (pip install pynauty)")
             group = _Graph(run, points, lifted)
             stats["classes by"] = "canonical graph (nauty)"
             stats["graph group order"] = group.classes.graph_order
             dec_args = dict(classes=group.classes, max_depth=4, seeds=16)
-        else:
-            group, refused = enumerate_group(points, fr, [(g.label, p) for g, p in zip(lifted, run.perms)])
-            if refused:
-                raise PolytopeError("a verified symmetry of the model does not map the certified points onto "
-                                    "themselves")
-            stats["classes by"] = "smallest image under the listed group"
-            dec_args = dict()
         stats["group order"] = group.order
+        stats["times"]["group"] = stats["times"].get("group", 0.0) + time.perf_counter() - t_group
         t0 = time.perf_counter()
         dec = Decomposition(Y, getattr(group, "perms", None), deadline=run.deadline,
                             seed=int(run.rng.integers(1 << 30)), progress=run.report, **dec_args)
@@ -289,8 +306,10 @@ def _expand(run: _Run, points, Y, den, reps, forms, group, verified, status) -> 
     listed = not isinstance(group, _Graph)
     only_reps = not listed and sum(r.orbit for r in reps) > _EXPAND_LIMIT
     for r, (a, b) in zip(reps, forms):
-        if listed:
+        if listed and group.mats is not None:
             rows = orbit_rows(a, b, group.mats)
+        elif listed:
+            rows = _orbit_bfs(a, b, [move_matrix(fr, p) for p in run.perms], r.orbit)
         elif only_reps:
             rows = [list(a) + [b]]
         else:
