@@ -18,6 +18,7 @@ CPU seconds are given beside wall seconds: other work may share the machine.
     python benchmarks/bench_symmetric.py
     python benchmarks/bench_symmetric.py --three-party
     python benchmarks/bench_symmetric.py --four-settings 600
+    python benchmarks/bench_symmetric.py --three-party-only 1   # (or 2) one half of --three-party
 """
 
 from __future__ import annotations
@@ -80,6 +81,18 @@ def three_party() -> None:
           f"same facets: {same}")
 
 
+def three_party_one(workers: int) -> None:
+    """One half of :func:`three_party` (each half under a minute, for a shared machine)."""
+    from contextlib import nullcontext
+
+    from nogo.fanout import engine
+
+    with (engine(local_workers=workers) if workers > 1 else nullcontext()):
+        P, w, c = timed(lambda: symmetric("bell-3x2", "Bell-local"))
+    print(f"\nbell-3x2 / Bell-local, {workers} worker(s): {len(P.facets)} facets in {len(P.classes)} classes, "
+          f"{w:.2f} s wall {c:.2f} s cpu (this process)")
+
+
 def four_settings(limit: float) -> None:
     P, w, c = timed(lambda: symmetric("bell-2x4", "Bell-local", time_limit=limit))
     sizes = sorted(P.class_sizes or [])
@@ -95,7 +108,11 @@ def main() -> None:
     ap = argparse.ArgumentParser()
     ap.add_argument("--three-party", action="store_true", help="the 53,856-facet set, 1 and 2 Dask workers")
     ap.add_argument("--four-settings", type=float, metavar="SECONDS", help="two parties, four settings")
+    ap.add_argument("--three-party-only", type=int, metavar="WORKERS", help="only the 53,856-facet set, 1 or 2 workers")
     args = ap.parse_args()
+    if args.three_party_only:
+        three_party_one(args.three_party_only)
+        return
     case("bell-2x3", "Bell-local", 684, "Collins & Gisin, J. Phys. A 37, 1775 (2004)")
     case("friends-2x3", "local-friendliness", 932, "Bong et al., Nature Physics 16, 1199 (2020)")
     if args.three_party:

@@ -34,6 +34,7 @@ integer points; nothing is rounded.
 
 from __future__ import annotations
 
+import math
 import time
 from dataclasses import dataclass
 from fractions import Fraction
@@ -233,12 +234,13 @@ def _hull_ints(Z: np.ndarray, deadline: float | None = None) -> list[tuple[tuple
         raise PolytopeError("a face is not full-dimensional in its own coordinates")
     out = []
     for i in range(H.row_size):
-        r = [Fraction(v) for v in H[i]]
-        vec = [-v for v in r[1:]] + [r[0]]
-        L = 1
-        for v in vec:
-            L = L * v.denominator // np.gcd(L, v.denominator)
-        ints = primitive([int(v * L) for v in vec])
+        # row r0 + r·z >= 0, i.e. -r·z <= r0; scaled to integers by numerators and denominators (no Fraction sums)
+        r = H[i]
+        nums = [int(getattr(v, "numerator", v)) for v in r]
+        dens = [int(getattr(v, "denominator", 1)) for v in r]
+        L = math.lcm(*dens)
+        vec = [-n * (L // d) for n, d in zip(nums[1:], dens[1:])] + [nums[0] * (L // dens[0])]
+        ints = primitive(vec)
         out.append((tuple(ints[:-1]), ints[-1]))
     return out
 
@@ -327,12 +329,7 @@ class Decomposition:
             for q in batch:
                 queue.remove(q)
             tasks = [self._ridge_task(reps[q]) for q in batch]
-            if len(tasks) > 1:
-                from ..fanout import fan_out
-
-                results = fan_out(_ridge_job, [t for t, _ in tasks])
-            else:
-                results = [_ridge_job(tasks[0][0])]
+            results = self._jobs([t for t, _ in tasks])
             for q, (task, keep), (found, st) in zip(batch, tasks, results):
                 F = reps[q]
                 for key_, v in st.items():
@@ -348,6 +345,25 @@ class Decomposition:
                 self.progress("classes closed", len(done & set(reps)), len(reps))
         self.skipped = len([key for key in queue if key not in done])
         return list(reps.values())
+
+    def _jobs(self, tasks: list) -> list:
+        """Run ridge jobs: single hulls through the engine (:func:`nogo.fanout.fan_out`); a face that needs
+        the recursion runs its own decomposition here, with *its* hulls fanned out, so one large face does
+        not hold a single worker while the others wait."""
+        if self.width <= 1 or len(tasks) == 1 and not _recursive(tasks[0]):
+            return [_ridge_job(t, self.width) for t in tasks]
+        from ..fanout import fan_out
+
+        out: list = [None] * len(tasks)
+        flat = [i for i, t in enumerate(tasks) if not _recursive(t)]
+        if flat:
+            for i, r in zip(flat, fan_out(_ridge_job, [tasks[i] for i in flat]) if len(flat) > 1
+                            else [_ridge_job(tasks[flat[0]])]):
+                out[i] = r
+        for i, t in enumerate(tasks):
+            if out[i] is None:
+                out[i] = _ridge_job(t, self.width)
+        return out
 
     def _cost(self, F: ClassRep) -> float:
         """A rough price of a face's ridge hull: it grows steeply with the points beyond a simplex."""
@@ -398,22 +414,29 @@ class Decomposition:
                 remaining), keep
 
 
-def _ridge_job(task):
+def _recursive(task) -> bool:
+    """Whether :func:`_ridge_job` decomposes this face again rather than taking one hull."""
+    Z, sub, direct_excess, depth, max_depth, _, _ = task
+    return not (len(Z) - Z.shape[1] <= direct_excess or depth >= max_depth or len(sub) <= 2)
+
+
+def _ridge_job(task, width: int = 1):
     """Ridge inequalities of one face (in its own coordinates), one per stabiliser orbit, with counters.
 
     Small faces: one exact hull.  Large faces with a non-trivial stabiliser: the
-    same decomposition one level down (Bremner, Dutour Sikirić, Schürmann).
+    same decomposition one level down (Bremner, Dutour Sikirić, Schürmann), whose
+    hulls go *width* at a time through the engine.
     """
     Z, sub, direct_excess, depth, max_depth, seed, remaining = task
     stats = {"ridge hulls": 0, "recursive faces": 0, "wraps": 0}
-    excess = len(Z) - Z.shape[1]
-    if excess <= direct_excess or depth >= max_depth or len(sub) <= 2:
+    if not _recursive(task):
         stats["ridge hulls"] += 1
         return _hull_ints(Z, None if remaining is None else time.perf_counter() + remaining), stats
     stats["recursive faces"] += 1
     deadline = None if remaining is None else time.perf_counter() + remaining
     inner = Decomposition(Z, sub, deadline=deadline, direct_excess=direct_excess, depth=depth + 1,
                           max_depth=max_depth, seed=seed)
+    inner.width = width
     found = [(r.a, r.b) for r in inner.run()]
     for key, v in inner.stats.items():
         stats[key] += v

@@ -305,11 +305,14 @@ def _expand(run: _Run, points, Y, den, reps, forms, group, verified, status) -> 
     classes: list[tuple[int, list[int]]] = []
     listed = not isinstance(group, _Graph)
     only_reps = not listed and sum(r.orbit for r in reps) > _EXPAND_LIMIT
+    moves = None
     for r, (a, b) in zip(reps, forms):
         if listed and group.mats is not None:
             rows = orbit_rows(a, b, group.mats)
         elif listed:
-            rows = _orbit_bfs(a, b, [move_matrix(fr, p) for p in run.perms], r.orbit)
+            if moves is None:
+                moves = [move_matrix(fr, p) for p in run.perms]
+            rows = _orbit_bfs(a, b, moves, r.orbit)
         elif only_reps:
             rows = [list(a) + [b]]
         else:
