@@ -8,8 +8,9 @@ A. Piperno, "Practical graph isomorphism, II", J. Symbolic Comput. 60, 94
 (2014); through pynauty).  The graph has
 
 * one node per party, per (party, setting) and per (party, setting, outcome),
-  joined as a forest: party – setting – outcome; settings that must stay put
-  (a read-out setting) are coloured apart from the others;
+  joined as a forest: party – setting – outcome, each node coloured by its
+  orbit under the verified moves (so a read-out setting that no move exchanges
+  with the others is coloured apart);
 * one node per probability coordinate p(a|s), joined to the outcome node of
   each party (its setting and its outcome there).
 
@@ -68,7 +69,7 @@ def permutation_group_order(perms: list[list[int]], degree: int) -> int:
 class _Structure:
     n: int  # nodes
     adjacency: dict[int, list[int]]
-    cells: list[set[int]]  # level colours in a fixed order (party, free setting, pinned setting, outcome)
+    cells: list[set[int]]  # colours of the forest's nodes in a fixed order (levels, then orbits within a level)
     coord0: int  # the node of coordinate 0; coordinate i is node coord0 + i
     d: int
 
@@ -80,9 +81,8 @@ def scenario_graph(scenario) -> _Structure:
     refines them to the orbits of the verified group on the forest's nodes (so a
     read-out setting that no verified move exchanges is coloured apart).
     """
-    pinned: set = set()
     nid = 0
-    parties, free, fixed, outs = set(), set(), set(), set()
+    parties, settings, outs = set(), set(), set()
     adj: dict[int, list[int]] = {}
     outcome_node: dict[tuple[int, str, str], int] = {}
     for i, p in enumerate(scenario.parties):
@@ -93,7 +93,7 @@ def scenario_graph(scenario) -> _Structure:
         for x in p.settings:
             sn = nid
             nid += 1
-            (fixed if (p.name, x) in pinned else free).add(sn)
+            settings.add(sn)
             adj[pn].append(sn)
             adj[sn] = []
             for a in p.outcomes:
@@ -109,7 +109,7 @@ def scenario_graph(scenario) -> _Structure:
         cn = nid
         nid += 1
         adj[cn] = [outcome_node[(i, s[i], a[i])] for i in range(len(s))]
-    cells = [c for c in (parties, free, fixed, outs) if c]
+    cells = [c for c in (parties, settings, outs) if c]
     return _Structure(nid, adj, cells, coord0, len(coords))
 
 

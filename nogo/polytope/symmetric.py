@@ -67,6 +67,8 @@ def derive_symmetric(model: LinearModel, frame: str = "auto", *, generators: lis
     """
     from ..symmetry import lift_to_model
 
+    if classes not in ("auto", "list", "graph"):
+        raise ValueError(f"classes must be 'auto', 'list' or 'graph', not {classes!r}")
     gens = list(generators or [])
     lifted, unlifted = [], []
     for g in gens:
