@@ -384,7 +384,8 @@ def _build(theory_file: str, P: Polytope, gens: list[Generator], seconds: float,
                 name = base if not used_n else f"{base}:{used_n + 1}"
                 used.add(name)
                 break
-        classes.append(FacetClass(name, len(members), reps[c], members,
+        size = P.class_sizes[c] if classes_in is None and P.class_sizes else len(members)  # listed alone: orbit
+        classes.append(FacetClass(name, size, reps[c], members,
                                   f"a version of {name.split(':')[0]}; {src}" if src else ""))
         for i in members:
             name_of[i] = name

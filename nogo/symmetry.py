@@ -232,16 +232,21 @@ def lift_to_model(model, gen: Generator) -> list[int] | None:
         return None
     sc = model.scenario
     perm_obs = permutation(sc, gen.move)
-    index = {(c.settings, tuple(sorted(zip(c.events, c.values)))): j for j, c in enumerate(model.columns)}
+    cols = model.extra.get("_lift_columns")
+    if cols is None:  # the columns described once per model (lazy columns are rebuilt on every access)
+        cols = model.extra["_lift_columns"] = [(c.settings, tuple(zip(c.events, c.values))) for c in model.columns]
+    index = model.extra.get("_lift_index")
+    if index is None:
+        index = model.extra["_lift_index"] = {(s, tuple(sorted(ev))): j for j, (s, ev) in enumerate(cols)}
     for inner_too in (True, False):
         maps = _event_maps(sc, gen, inner_too)
         if maps is None:
             return None
         rename, value, settings_of = maps
         sigma = []
-        for c in model.columns:
-            s2 = settings_of(c.settings)
-            key = (s2, tuple(sorted((rename(e), value(e, v, c.settings)) for e, v in zip(c.events, c.values))))
+        for c_settings, c_events in cols:
+            s2 = settings_of(c_settings)
+            key = (s2, tuple(sorted((rename(e), value(e, v, c_settings)) for e, v in c_events)))
             j = index.get(key)
             if j is None:
                 break
@@ -304,7 +309,80 @@ def _model_invariant(model, sigma: list[int], perm_obs: list[int]) -> bool:
     moved = {_key(list(sig[c]), v, b) for c, v, b in rows}
     if moved == base:
         return True
+    if _same_classes(model, sigma):
+        return True
     return _same_row_space(model, sigma)
+
+
+def _equal_classes(model):
+    """Columns the rows q_i - q_j = 0 make equal (a partition), and the other rows summed over those classes.
+
+    Cached on the model: (class of each column, the set of other rows as keys over classes).
+    """
+    import numpy as np
+
+    got = model.extra.get("_equal_classes")
+    if got is not None:
+        return got
+    n = len(model.columns)
+    parent = list(range(n))
+
+    def find(i):
+        while parent[i] != i:
+            parent[i] = parent[parent[i]]
+            i = parent[i]
+        return i
+    rest = []
+    for c, v, b in _row_ints(model):
+        if len(c) == 2 and b == 0 and sorted(v) == [-1, 1]:
+            ri, rj = find(int(c[0])), find(int(c[1]))
+            if ri != rj:
+                parent[ri] = rj
+        else:
+            rest.append((c, v, b))
+    cls = np.array([find(i) for i in range(n)], dtype=np.int64)
+    got = model.extra["_equal_classes"] = (cls, rest)
+    return got
+
+
+def _class_rows(cls, rest, colmap) -> set:
+    out = set()
+    for c, v, b in rest:
+        acc: dict[int, int] = {}
+        for j, x in zip(c, v):
+            k = int(cls[colmap[int(j)]])
+            acc[k] = acc.get(k, 0) + x
+        items = sorted((k, x) for k, x in acc.items() if x)
+        out.add(_key([k for k, _ in items], [x for _, x in items], b))
+    return out
+
+
+def _same_classes(model, sigma: list[int]) -> bool:
+    """Exact, sufficient: σ maps the partition into equal columns onto itself and the other rows with it.
+
+    The solutions are the vectors constant on each class that satisfy the other
+    rows, which on such vectors only see the sums of their coefficients over each
+    class.  When σ permutes the classes and the set of those summed rows (each
+    scaled to coprime integers with a fixed sign) onto itself, it maps the
+    solution set onto itself.  (Rows q_i - q_j = 0 are how setting independence
+    compiles; the full null-space test below is the fallback.)
+    """
+    import numpy as np
+
+    cls, rest = _equal_classes(model)
+    sig = np.array(sigma, dtype=np.int64)
+    # the class of a column's image must be determined by the column's class, one to one
+    img = {}
+    for j in range(len(sig)):
+        a, b = int(cls[j]), int(cls[sig[j]])
+        if img.setdefault(a, b) != b:
+            return False
+    if len(set(img.values())) != len(img):
+        return False
+    base = model.extra.get("_class_row_keys")
+    if base is None:
+        base = model.extra["_class_row_keys"] = _class_rows(cls, rest, list(range(len(sig))))
+    return _class_rows(cls, rest, sig) == base
 
 
 def _same_row_space(model, sigma: list[int]) -> bool:

@@ -34,6 +34,7 @@ integer points; nothing is rounded.
 
 from __future__ import annotations
 
+import math
 import time
 from dataclasses import dataclass
 from fractions import Fraction
@@ -169,6 +170,49 @@ def first_facet(Y: np.ndarray, rng: np.random.Generator) -> tuple[tuple[int, ...
     raise PolytopeError("gift wrapping did not reach a facet")
 
 
+def ray_facet(Y: np.ndarray, rng: np.random.Generator) -> tuple[tuple[int, ...], int]:
+    """The facet a random ray from the centroid leaves conv(Y) through (an LP finds it, exact checks decide).
+
+    Gift wrapping from a random direction tends to land on the facets with the
+    most points (positivity), which are the dearest to expand; a ray from an
+    interior point meets facets in proportion to their solid angle, so the first
+    classes are cheap ones.  HiGHS gives the exit point and the points tight
+    there; the facet through them is computed exactly (integer null space) and
+    checked on every point; anything short of a facet falls back to gift wrapping.
+    """
+    from scipy.optimize import linprog
+
+    n, k = Y.shape
+    Yf = Y.astype(float)
+    c = Yf.mean(axis=0)
+    r = rng.normal(size=k)
+    # max t: sum_i lam_i y_i - t r = c, sum lam = 1, lam >= 0
+    A = np.zeros((k + 1, n + 1))
+    A[:k, :n] = Yf.T
+    A[:k, n] = -r
+    A[k, :n] = 1
+    cost = np.zeros(n + 1)
+    cost[n] = -1
+    res = linprog(cost, A_eq=A, b_eq=np.append(c, 1.0), bounds=[(0, None)] * n + [(0, None)], method="highs")
+    if res.status != 0:
+        return first_facet(Y, rng)
+    h = -np.asarray(res.eqlin.marginals[:k])
+    vals = Yf @ h
+    top = float(np.max(vals))
+    tight = np.flatnonzero(vals >= top - 1e-7 * max(1.0, abs(top), float(np.max(np.abs(vals)))))
+    T = Y[tight]
+    if affine_rank(T) == k - 1:
+        X, nullity = _zmat([[int(v) for v in t] + [-1] for t in T], k + 1).nullspace()
+        if nullity == 1:
+            v = primitive([int(X[i, 0]) for i in range(k + 1)])
+            a, b = list(v[:-1]), v[-1]
+            for sgn in (1, -1):
+                aa, bb = [sgn * x for x in a], sgn * b
+                if not np.any(_dot(Y, aa) > bb):
+                    return tuple(aa), bb
+    return first_facet(Y, rng)
+
+
 def _hull_ints(Z: np.ndarray, deadline: float | None = None) -> list[tuple[tuple[int, ...], int]]:
     """Facets a·z <= b of conv(Z) (full-dimensional, integer points), by cddlib in rationals.
 
@@ -190,12 +234,13 @@ def _hull_ints(Z: np.ndarray, deadline: float | None = None) -> list[tuple[tuple
         raise PolytopeError("a face is not full-dimensional in its own coordinates")
     out = []
     for i in range(H.row_size):
-        r = [Fraction(v) for v in H[i]]
-        vec = [-v for v in r[1:]] + [r[0]]
-        L = 1
-        for v in vec:
-            L = L * v.denominator // np.gcd(L, v.denominator)
-        ints = primitive([int(v * L) for v in vec])
+        # row r0 + r·z >= 0, i.e. -r·z <= r0; scaled to integers by numerators and denominators (no Fraction sums)
+        r = H[i]
+        nums = [int(getattr(v, "numerator", v)) for v in r]
+        dens = [int(getattr(v, "denominator", 1)) for v in r]
+        L = math.lcm(*dens)
+        vec = [-n * (L // d) for n, d in zip(nums[1:], dens[1:])] + [nums[0] * (L // dens[0])]
+        ints = primitive(vec)
         out.append((tuple(ints[:-1]), ints[-1]))
     return out
 
@@ -205,10 +250,12 @@ class Decomposition:
 
     def __init__(self, Y: np.ndarray, perms: np.ndarray, *, deadline: float | None = None,
                  direct_excess: int = 25, depth: int = 0, max_depth: int = 1, seed: int = 1,
-                 progress=None, on_class=None):
+                 progress=None, on_class=None, classes=None, seeds: int = 1):
         self.Y = Y
+        self.classes = classes  # a GraphClasses (canon.py) instead of the listed group, for large groups
+        self.seeds = seeds  # first facets from that many random directions (the cheapest are expanded first)
         self.perms = perms
-        self.inv = np.argsort(perms, axis=1) if len(perms) else perms
+        self.inv = np.argsort(perms, axis=1) if perms is not None and len(perms) else perms
         self.deadline = deadline
         self.direct_excess = direct_excess
         self.depth = depth
@@ -233,6 +280,12 @@ class Decomposition:
     def stabiliser(self, inc: np.ndarray) -> np.ndarray:
         return self.perms[(inc[self.inv] == inc).all(axis=1)]
 
+    def key_of(self, a, b) -> bytes:
+        """The class key of the facet a·y <= b (as :meth:`_add` files it)."""
+        if self.classes is not None:
+            return self.classes.key(a)[0]
+        return self.canonical(_dot(self.Y, a) == b)[0]
+
     def _check_time(self) -> None:
         if self.deadline is not None and time.perf_counter() > self.deadline:
             raise OutOfTime()
@@ -244,7 +297,8 @@ class Decomposition:
         Y = self.Y
         reps: dict[bytes, ClassRep] = {}
         queue: list[bytes] = []
-        seeds = list(start or []) or [first_facet(Y, self.rng)]
+        seeds = list(start or []) or ([first_facet(Y, self.rng)] if self.seeds <= 1 else
+                                      [ray_facet(Y, self.rng) for _ in range(self.seeds)])
         for a, b in seeds:
             self._add(reps, queue, a, b)
         done = set(done_keys or ())
@@ -275,12 +329,7 @@ class Decomposition:
             for q in batch:
                 queue.remove(q)
             tasks = [self._ridge_task(reps[q]) for q in batch]
-            if len(tasks) > 1:
-                from ..fanout import fan_out
-
-                results = fan_out(_ridge_job, [t for t, _ in tasks])
-            else:
-                results = [_ridge_job(tasks[0][0])]
+            results = self._jobs([t for t, _ in tasks])
             for q, (task, keep), (found, st) in zip(batch, tasks, results):
                 F = reps[q]
                 for key_, v in st.items():
@@ -297,6 +346,25 @@ class Decomposition:
         self.skipped = len([key for key in queue if key not in done])
         return list(reps.values())
 
+    def _jobs(self, tasks: list) -> list:
+        """Run ridge jobs: single hulls through the engine (:func:`nogo.fanout.fan_out`); a face that needs
+        the recursion runs its own decomposition here, with *its* hulls fanned out, so one large face does
+        not hold a single worker while the others wait."""
+        if self.width <= 1 or len(tasks) == 1 and not _recursive(tasks[0]):
+            return [_ridge_job(t, self.width) for t in tasks]
+        from ..fanout import fan_out
+
+        out: list = [None] * len(tasks)
+        flat = [i for i, t in enumerate(tasks) if not _recursive(t)]
+        if flat:
+            for i, r in zip(flat, fan_out(_ridge_job, [tasks[i] for i in flat]) if len(flat) > 1
+                            else [_ridge_job(tasks[flat[0]])]):
+                out[i] = r
+        for i, t in enumerate(tasks):
+            if out[i] is None:
+                out[i] = _ridge_job(t, self.width)
+        return out
+
     def _cost(self, F: ClassRep) -> float:
         """A rough price of a face's ridge hull: it grows steeply with the points beyond a simplex."""
         return 2.0 ** min(int(np.count_nonzero(F.incidence)) - self.Y.shape[1], 900)  # no float overflow
@@ -308,6 +376,13 @@ class Decomposition:
         inc = vals == b
         packed = np.packbits(inc).tobytes()
         if packed in self.member_of:  # a facet of a known class: no canonical form needed
+            return
+        if self.classes is not None:  # large group: the canonical graph, and only the facets met are remembered
+            key, orbit = self.classes.key(a)
+            self.member_of[packed] = key
+            if key not in reps:
+                reps[key] = ClassRep(tuple(int(v) for v in a), int(b), inc, orbit, key)
+                queue.append(key)
             return
         imgs = np.packbits(inc[self.inv], axis=1)
         uniq = np.unique(imgs, axis=0)
@@ -325,7 +400,12 @@ class Decomposition:
         j = next(i for i, v in enumerate(F.a) if v)  # drop a coordinate the hyperplane determines
         keep = [i for i in range(k) if i != j]
         Z = Y[idx][:, keep]
-        stab = self.stabiliser(F.incidence)
+        if self.classes is not None:
+            stab = self.classes.stabiliser_points(F.a)
+            if len(stab) * F.orbit != self.classes.order:
+                raise PolytopeError("orbit and stabiliser sizes disagree with the group order")
+        else:
+            stab = self.stabiliser(F.incidence)
         pos = -np.ones(len(Y), dtype=np.int64)
         pos[idx] = np.arange(len(idx))
         sub = np.unique(pos[stab[:, idx]], axis=0)
@@ -334,22 +414,29 @@ class Decomposition:
                 remaining), keep
 
 
-def _ridge_job(task):
+def _recursive(task) -> bool:
+    """Whether :func:`_ridge_job` decomposes this face again rather than taking one hull."""
+    Z, sub, direct_excess, depth, max_depth, _, _ = task
+    return not (len(Z) - Z.shape[1] <= direct_excess or depth >= max_depth or len(sub) <= 2)
+
+
+def _ridge_job(task, width: int = 1):
     """Ridge inequalities of one face (in its own coordinates), one per stabiliser orbit, with counters.
 
     Small faces: one exact hull.  Large faces with a non-trivial stabiliser: the
-    same decomposition one level down (Bremner, Dutour Sikirić, Schürmann).
+    same decomposition one level down (Bremner, Dutour Sikirić, Schürmann), whose
+    hulls go *width* at a time through the engine.
     """
     Z, sub, direct_excess, depth, max_depth, seed, remaining = task
     stats = {"ridge hulls": 0, "recursive faces": 0, "wraps": 0}
-    excess = len(Z) - Z.shape[1]
-    if excess <= direct_excess or depth >= max_depth or len(sub) <= 2:
+    if not _recursive(task):
         stats["ridge hulls"] += 1
         return _hull_ints(Z, None if remaining is None else time.perf_counter() + remaining), stats
     stats["recursive faces"] += 1
     deadline = None if remaining is None else time.perf_counter() + remaining
     inner = Decomposition(Z, sub, deadline=deadline, direct_excess=direct_excess, depth=depth + 1,
                           max_depth=max_depth, seed=seed)
+    inner.width = width
     found = [(r.a, r.b) for r in inner.run()]
     for key, v in inner.stats.items():
         stats[key] += v

@@ -431,6 +431,11 @@ def _symmetric(run, data, verts, Y, den, model, generators):
     from .group import enumerate_group
     from .symmetric import _expand
 
+    from .symmetric import _LIST_LIMIT
+
+    if int(data.get("group_order") or 0) > _LIST_LIMIT:
+        # classes told apart by the canonical graph: listing the group to re-check them would not fit
+        return "the stored classes were told apart by the canonical graph, which is not re-checked from storage yet"
     labels = set(data["generators"])
     if not labels <= {g.label for g in generators}:
         return "the stored symmetries are not relabellings of this scenario"

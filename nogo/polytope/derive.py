@@ -71,6 +71,24 @@ def _apply_move(scenario: Scenario, move, p: Point) -> Point:
     return tuple(out)
 
 
+def _constant_on(functionals, points) -> bool:
+    """Exact: every functional takes one value on all the points (integer products over common denominators)."""
+    from .group import _integer_points
+    from .ints import _lcm
+
+    if not functionals or not points:
+        return True
+    F = [[Fraction(x) for x in f] for f in functionals]
+    L = _lcm(x.denominator for f in F for x in f)
+    Fi = np.array([[int(x * L) for x in f] for f in F], dtype=object)
+    P = _integer_points(points)
+    if Fi.size and P.dtype != object and int(np.max(np.abs(Fi))) * int(np.max(np.abs(P)) or 1) * P.shape[1] < 2**62:
+        V = P @ Fi.astype(np.int64).T
+    else:
+        V = P.astype(object).dot(Fi.T)
+    return bool(np.all(V == V[:1]))
+
+
 def _perm_of(scenario: Scenario, move) -> list[int]:
     coords = scenario.coordinates()
     index = {c: i for i, c in enumerate(coords)}
@@ -136,6 +154,8 @@ class _Run:
         self.points: dict[Point, None] = {}
         self.perms: list[list[int]] = []
         self.lifted = False
+        self.max_tries = 0  # at most this many random directions (0: 50·(dim + 10))
+        self.patience = 0  # random directions without a new point before stopping (0: the plain route's 40 or 2·dim)
 
     def out_of_time(self) -> bool:
         return self.deadline is not None and time.perf_counter() > self.deadline
@@ -161,8 +181,12 @@ class _Run:
         """Stages 1-4: first points, the proven affine hull, the coordinates, vertices from random directions."""
         sc, d, rng = self.sc, self.d, self.rng
         t0 = time.perf_counter()
-        first = [tuple(Fraction(int(v)) for v in rng.integers(-1000, 1001, size=d)) for _ in range(d + 8)]
+        # with verified model symmetries (self.lifted) a few points and their images span as much as d + 8 points
+        n_first = 8 if self.lifted and self.perms else d + 8
+        first = [tuple(Fraction(int(v)) for v in rng.integers(-1000, 1001, size=d)) for _ in range(n_first)]
         self.add(a.point for a in self.ask("max", [(c, None, None) for c in first]))
+        if self.lifted and self.perms:
+            self.close_under(self.perms, lifted=True)
         self.report("points", len(self.points), None)
         while True:
             _, ann = affine_basis(list(self.points))
@@ -179,9 +203,7 @@ class _Run:
                 break
         self.stats["times"]["affine hull"] = time.perf_counter() - t0
         kind = frame
-        ns = all(sum((Fraction(x) * Fraction(y) for x, y in zip(f, p) if x), Fraction(0)) ==
-                 sum((Fraction(x) * Fraction(y) for x, y in zip(f, v0) if x), Fraction(0))
-                 for f in no_signalling_functionals(sc) for p in self.points)
+        ns = _constant_on(no_signalling_functionals(sc), list(self.points))
         if frame == "auto":
             kind = "collins-gisin" if ns else "probabilities"
         elif frame in ("collins-gisin", "correlators") and not ns:
@@ -203,8 +225,9 @@ class _Run:
         self.notes.append(f"no-signalling holds on this set (exact check on its affine hull): {'yes' if ns else 'no'}")
         self.t_vertices = t0 = time.perf_counter()
         self.G = G = np.array([[float(v) for v in f.vector] for f in fr.functionals]).reshape(k, d)
-        patience, stale, tries = max(40, 2 * k), 0, 0
-        while stale < patience and tries < 50 * (k + 10) and not self.out_of_time():
+        patience, stale, tries = self.patience or max(40, 2 * k), 0, 0
+        most = self.max_tries or 50 * (k + 10)
+        while stale < patience and tries < most and not self.out_of_time():
             batch = []
             for _ in range(16):
                 c = rng.normal(size=k) @ G

@@ -60,7 +60,7 @@ def _mul(A: np.ndarray, B: np.ndarray) -> np.ndarray:
 @dataclass
 class PointGroup:
     perms: np.ndarray  # order × n: element g sends point i to perms[g, i]
-    mats: np.ndarray  # order × (k+1) × (k+1): (a, b) -> (a, b) @ mats[g] for the same element
+    mats: np.ndarray | None  # order × (k+1) × (k+1): (a, b) -> (a, b) @ mats[g] for the same element (if asked)
     generators: list[str]  # labels of the generators used
 
     @property
@@ -96,7 +96,7 @@ def point_permutation(points: list[Point], index: dict, perm: list[int], P: np.n
 
 
 def enumerate_group(points: list[Point], frame: Frame, gens: list[tuple[str, list[int]]],
-                    limit: int = 400_000) -> tuple[PointGroup, list[str]]:
+                    limit: int = 400_000, with_mats: bool = True) -> tuple[PointGroup, list[str]]:
     """The group the generators (label, coordinate permutation) generate on *points*; also the labels refused."""
     index = {p: i for i, p in enumerate(points)}
     n, k = len(points), frame.dim
@@ -108,32 +108,61 @@ def enumerate_group(points: list[Point], frame: Frame, gens: list[tuple[str, lis
         if pp is None:
             refused.append(label)
         else:
-            kept.append((label, pp, move_matrix(frame, perm)))
+            kept.append((label, pp, move_matrix(frame, perm) if with_mats else np.eye(1, dtype=np.int64)))
     ident = np.arange(n, dtype=np.int64)
     I = np.eye(k + 1, dtype=np.int64)
-    perms = [ident]
-    mats = [I]
+    small = all(m.dtype != object for _, _, m in kept)
+    bound = max([int(np.max(np.abs(m))) for _, _, m in kept] + [1])
+    perms = [ident[None, :]]
+    mats = [I[None, :, :] if small else np.array([I], dtype=object)]
     seen = {ident.tobytes()}
-    frontier = [0]
-    while frontier:
-        nxt = []
-        for e in frontier:
-            for _, sp_, sm in kept:
-                p = sp_[perms[e]]  # first e, then the generator
-                key = p.tobytes()
-                if key in seen:
-                    continue
-                seen.add(key)
-                if len(seen) > limit:
-                    raise RuntimeError(f"symmetry group larger than {limit} elements")
-                perms.append(p)
-                mats.append(_mul(mats[e], sm))
-                nxt.append(len(perms) - 1)
-        frontier = nxt
+    frontier_p, frontier_m = perms[0], mats[0]
+    count = 1
+    while len(frontier_p):
+        nxt_p, nxt_m = [], []
+        for _, sp_, sm in kept:
+            P = sp_[frontier_p]  # first the element, then the generator (one level at a time)
+            fresh = []
+            for i, row in enumerate(P):
+                key = row.tobytes()
+                if key not in seen:
+                    seen.add(key)
+                    fresh.append(i)
+            if not fresh:
+                continue
+            count += len(fresh)
+            if count > limit:
+                raise RuntimeError(f"symmetry group larger than {limit} elements")
+            if not with_mats:
+                nxt_p.append(P[fresh])
+                nxt_m.append(frontier_m[:0])
+                continue
+            Mf = frontier_m[fresh]
+            mmax = int(np.max(np.abs(Mf))) if small else 0
+            if small and mmax * bound * (k + 1) < _SAFE:
+                prod = Mf @ sm
+                g = np.gcd.reduce(np.abs(prod).reshape(len(fresh), -1), axis=1)
+                g[g == 0] = 1
+                prod = prod // g[:, None, None]
+            else:
+                prod = np.array([_mul(m, sm) for m in Mf], dtype=object)
+            nxt_p.append(P[fresh])
+            nxt_m.append(prod)
+        if not nxt_p:
+            break
+        frontier_p = np.concatenate(nxt_p)
+        if any(m.dtype == object for m in nxt_m):
+            small = False
+            frontier_m = np.concatenate([m.astype(object) for m in nxt_m])
+        else:
+            frontier_m = np.concatenate(nxt_m)
+        perms.append(frontier_p)
+        mats.append(frontier_m)
     if any(m.dtype == object for m in mats):
-        M = np.empty((len(mats), k + 1, k + 1), dtype=object)
-        for i, m in enumerate(mats):
-            M[i] = m.astype(object)
+        M = np.concatenate([m.astype(object) for m in mats])
     else:
-        M = np.stack(mats)
+        M = np.concatenate(mats)
+    perms = list(np.concatenate(perms))
+    if not with_mats:
+        M = None
     return PointGroup(np.stack(perms), M, [label for label, _, _ in kept]), refused

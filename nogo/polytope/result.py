@@ -41,6 +41,7 @@ class Polytope:
     classes: list[tuple[int, list[int]]] | None = None
     group_order: int | None = None
     group_generators: list[str] = field(default_factory=list)
+    class_sizes: list[int] | None = None  # facets per class (with the canonical graph, classes may be listed alone)
 
     @property
     def dim(self) -> int:

@@ -30,7 +30,7 @@ import numpy as np
 from ..model import LinearModel
 from .adjacency import Decomposition, OutOfTime, orbit_rows
 from .derive import _perm_of, _Run, derive_polytope
-from .group import enumerate_group
+from .group import enumerate_group, move_matrix
 from .hull import _coords_matrix, int_matmul
 from .ints import PolytopeError, Progress, _zmat, primitive
 from .result import HullFacet, Polytope
@@ -42,13 +42,17 @@ _MANY = 12  # points per dimension above which the plain hull is used
 def derive_symmetric(model: LinearModel, frame: str = "auto", *, generators: list | None = None, seed: int = 1,
                      time_limit: float | None = None, workers: int | None = None,
                      progress: Progress | None = None, chunk: int = 64, store=None,
-                     force: bool = False) -> Polytope:
+                     force: bool = False, classes: str = "auto") -> Polytope:
     """The exact facets of the model's set of behaviours, class by class (see the module docstring).
 
     ``generators``: :class:`nogo.symmetry.Generator` moves (e.g. from
     :func:`nogo.symmetry.bundle_generators`).  When none of them lifts to a
     verified symmetry of the model, the plain route runs instead.
     ``force``: decompose even when there are many points per dimension.
+    ``classes``: how two facets are put in one class: ``"list"`` by the group
+    listed on the points (its smallest image), ``"graph"`` by a canonical
+    coloured graph (:mod:`.canon`, nauty; the group is never listed), ``"auto"``
+    the graph when the group has more than 20,000 elements (listing stops there).
     ``store``: an optional :class:`nogo.store.RunPieces` where each closed
     class is written as it is found and from which an interrupted run resumes.
 
@@ -63,6 +67,8 @@ def derive_symmetric(model: LinearModel, frame: str = "auto", *, generators: lis
     """
     from ..symmetry import lift_to_model
 
+    if classes not in ("auto", "list", "graph"):
+        raise ValueError(f"classes must be 'auto', 'list' or 'graph', not {classes!r}")
     gens = list(generators or [])
     lifted, unlifted = [], []
     for g in gens:
@@ -73,10 +79,13 @@ def derive_symmetric(model: LinearModel, frame: str = "auto", *, generators: lis
         P.notes.append("no relabelling is a verified symmetry of this model: the plain hull was used")
         return P
     run = _Run(model, seed, time_limit, workers, progress, chunk)
-    run.discover(frame)
+    # few random directions: the points are closed under the verified group next, and every class
+    # representative is asked of the oracle, which returns any point still missing (step 4)
+    run.patience, run.max_tries = 16, 48
     sc = model.scenario
     run.perms = [_perm_of(sc, g.move) for g in lifted]
     run.lifted = True
+    run.discover(frame)
     run.close_under(run.perms, lifted=True)
     run.stats["times"]["vertices"] = time.perf_counter() - run.t_vertices
     k = run.fr.dim
@@ -88,10 +97,106 @@ def derive_symmetric(model: LinearModel, frame: str = "auto", *, generators: lis
     if unlifted:
         run.notes.append("relabellings that are not symmetries of this model (exact check): "
                          + ", ".join(g.label for g in unlifted))
-    return _classes(run, lifted, store)
+    return _classes(run, lifted, store, classes)
 
 
-def _classes(run: _Run, lifted: list, store) -> Polytope:
+_LIST_LIMIT = 20_000  # group elements above which classes are told apart by the canonical graph
+_EXPAND_LIMIT = 300_000  # facets above which only the class representatives are listed
+
+
+class _Graph:
+    """The group as generators and the canonical graph (:mod:`.canon`), where listing it would not fit."""
+
+    def __init__(self, run: _Run, points, lifted):
+        from .canon import GraphClasses
+        from .group import _integer_points, move_matrix
+
+        fr = run.fr
+        Gfull = _functional_ints(fr)
+        self.classes = GraphClasses(run.sc, run.perms, _integer_points(points), Gfull)
+        self.order = self.classes.order
+        self.generators = [g.label for g in lifted]
+        self.moves = [move_matrix(fr, p) for p in run.perms]
+        self.perms_on_coords = run.perms
+
+    def point_orbits(self, points) -> np.ndarray:
+        """The smallest point of each point's orbit under the generators (union of their cycles)."""
+        from .group import _integer_points, point_permutation
+
+        P = _integer_points(points)
+        index = {p: i for i, p in enumerate(points)}
+        label = np.arange(len(points))
+        parent = list(range(len(points)))
+
+        def find(i):
+            while parent[i] != i:
+                parent[i] = parent[parent[i]]
+                i = parent[i]
+            return i
+        for perm in self.perms_on_coords:
+            pp = point_permutation(points, index, perm, P)
+            if pp is None:
+                raise PolytopeError("a verified symmetry does not map the points onto themselves")
+            for i, j in enumerate(pp):
+                ri, rj = find(i), find(int(j))
+                if ri != rj:
+                    parent[max(ri, rj)] = min(ri, rj)
+        for i in range(len(points)):
+            label[i] = find(i)
+        return label
+
+
+def _functional_ints(fr) -> np.ndarray:
+    from .ints import _lcm
+
+    vecs = [[Fraction(v) for v in f.vector] for f in fr.functionals]
+    L = _lcm(v.denominator for r in vecs for v in r)
+    return np.array([[int(v * L) for v in r] for r in vecs], dtype=object)
+
+
+def _orbit_bfs(a, b, moves: list[np.ndarray], limit: int) -> np.ndarray:
+    """Every image of (a, b) under the group the move matrices generate, breadth first, as primitive rows.
+
+    int64 while |row|·|M|·width stays below 2^62 (rows are primitive, so they stay bounded), else Python integers.
+    """
+    start = np.array([int(v) for v in list(a) + [b]], dtype=object)
+    mmax = max(int(np.max(np.abs(M))) for M in moves) if moves else 0
+    seen = {tuple(int(v) for v in start)}
+    seen_b = {np.array([int(v) for v in start], dtype=np.int64).tobytes()} if all(
+        abs(int(v)) < 2**62 for v in start) else set()
+    frontier = start[None, :]
+    while len(frontier):
+        rmax = int(np.max(np.abs(frontier))) if frontier.size else 0
+        small = rmax * mmax * frontier.shape[1] < 2**62
+        F = frontier.astype(np.int64) if small else frontier.astype(object)
+        nxt = []
+        for M in moves:
+            imgs = F @ (M.astype(np.int64) if small else M.astype(object))
+            if small:
+                g = np.gcd.reduce(np.abs(imgs), axis=1)
+                g[g == 0] = 1
+                red = imgs // g[:, None]
+                for r in red:  # int64 rows compared as bytes (exact; the tuple is built for new rows only)
+                    key = r.tobytes()
+                    if key not in seen_b:
+                        seen_b.add(key)
+                        t = tuple(int(v) for v in r)
+                        if t not in seen:  # (a row first met on the Python-integer path)
+                            seen.add(t)
+                            nxt.append(t)
+                continue
+            rows = [primitive([int(v) for v in r]) for r in imgs]
+            for t in rows:
+                if t not in seen:
+                    seen.add(t)
+                    nxt.append(t)
+        if len(seen) > limit:
+            raise PolytopeError(f"a class has more than {limit} facets")
+        frontier = np.array(nxt, dtype=object).reshape(len(nxt), len(start))
+    return np.array(sorted(seen), dtype=object)
+
+
+def _classes(run: _Run, lifted: list, store, how: str = "auto") -> Polytope:
     fr, k = run.fr, run.fr.dim
     stats, notes = run.stats, run.notes
     stats["route"] = "symmetric"
@@ -102,13 +207,36 @@ def _classes(run: _Run, lifted: list, store) -> Polytope:
         points = list(run.points)
         Y, den = _coords_matrix(fr, points)
         Y = Y.astype(np.int64) if int(np.max(np.abs(Y))) < 2**40 else Y
-        group, refused = enumerate_group(points, fr, [(g.label, p) for g, p in zip(lifted, run.perms)])
-        if refused:
-            raise PolytopeError("a verified symmetry of the model does not map the certified points onto themselves")
+        group = None
+        t_group = time.perf_counter()
+        if how in ("auto", "list"):
+            try:  # listed up to _LIST_LIMIT elements (the enumeration stops there)
+                group, refused = enumerate_group(points, fr, [(g.label, p) for g, p in zip(lifted, run.perms)],
+                                                 limit=_LIST_LIMIT if how == "auto" else 400_000,
+                                                 with_mats=False)
+            except RuntimeError:
+                group = None
+            else:
+                if refused:
+                    raise PolytopeError("a verified symmetry of the model does not map the certified points onto "
+                                        "themselves")
+                stats["classes by"] = "smallest image under the listed group"
+                dec_args = dict()
+        if group is None:
+            from .canon import has_nauty
+
+            if not has_nauty():
+                raise PolytopeError(f"the symmetry group has more than {_LIST_LIMIT} elements, too many to list; "
+                                    "telling facet classes apart needs pynauty (pip install pynauty)")
+            group = _Graph(run, points, lifted)
+            stats["classes by"] = "canonical graph (nauty)"
+            stats["graph group order"] = group.classes.graph_order
+            dec_args = dict(classes=group.classes, max_depth=4, seeds=16)
         stats["group order"] = group.order
+        stats["times"]["group"] = stats["times"].get("group", 0.0) + time.perf_counter() - t_group
         t0 = time.perf_counter()
-        dec = Decomposition(Y, group.perms, deadline=run.deadline, seed=int(run.rng.integers(1 << 30)),
-                            progress=run.report)
+        dec = Decomposition(Y, getattr(group, "perms", None), deadline=run.deadline,
+                            seed=int(run.rng.integers(1 << 30)), progress=run.report, **dec_args)
         resumed = store.load(len(points)) if store is not None else None
         if store is not None:
             dec.on_class = lambda F, reps: store.save(len(points), _frame_form(F, den), F.orbit, sorted(
@@ -117,8 +245,7 @@ def _classes(run: _Run, lifted: list, store) -> Polytope:
             if resumed:
                 stats["classes resumed"] = len(resumed["closed"])
                 reps = dec.run(start=[_int_form(ab, den) for ab, _ in resumed["known"]],
-                               done_keys={dec.canonical(_incidence(Y, _int_form(ab, den)))[0]
-                                          for ab in resumed["closed"]})
+                               done_keys={dec.key_of(*_int_form(ab, den)) for ab in resumed["closed"]})
             else:
                 reps = dec.run()
         except OutOfTime:
@@ -178,9 +305,21 @@ def _expand(run: _Run, points, Y, den, reps, forms, group, verified, status) -> 
     fr, k = run.fr, run.fr.dim
     facets: list[HullFacet] = []
     classes: list[tuple[int, list[int]]] = []
+    listed = not isinstance(group, _Graph)
+    only_reps = not listed and sum(r.orbit for r in reps) > _EXPAND_LIMIT
+    moves = None
     for r, (a, b) in zip(reps, forms):
-        rows = orbit_rows(a, b, group.mats)
-        if status == "complete" and len(rows) != r.orbit:
+        if listed and group.mats is not None:
+            rows = orbit_rows(a, b, group.mats)
+        elif listed:
+            if moves is None:
+                moves = [move_matrix(fr, p) for p in run.perms]
+            rows = _orbit_bfs(a, b, moves, r.orbit)
+        elif only_reps:
+            rows = [list(a) + [b]]
+        else:
+            rows = _orbit_bfs(a, b, group.moves, r.orbit)
+        if status == "complete" and len(rows) != r.orbit and not only_reps:
             raise PolytopeError(f"a class expands to {len(rows)} inequalities but its orbit has {r.orbit} facets")
         ans = verified.get((a, b))
         start = len(facets)
@@ -209,7 +348,10 @@ def _expand(run: _Run, points, Y, den, reps, forms, group, verified, status) -> 
             M = _zmat([[1] + [int(v) for v in Y[j]] for j in on], k + 1)
             if M.rank() != k:
                 raise PolytopeError("a class representative is not tight on a facet's worth of points")
-    vertices = _vertices(points, Y, den, facets, group, status)
+    vertices = _vertices(points, Y, den, facets, group, "partial" if only_reps else status)
+    if only_reps:
+        run.notes.append(f"{sum(r.orbit for r in reps):,} facets in {len(reps)} classes: one representative per "
+                         "class is listed (class sizes from the stabilisers); every certified point is kept")
     if len(vertices) < len(points):
         run.notes.append(f"{len(points) - len(vertices)} certified points found on the way are not vertices")
     if status == "partial":
@@ -221,6 +363,7 @@ def _expand(run: _Run, points, Y, den, reps, forms, group, verified, status) -> 
     P = Polytope(run.sc, run.model.label, run.model.assumptions, fr, vertices, run.equations, facets, status,
                  st, run.notes, run.fp)
     P.classes = classes
+    P.class_sizes = [r.orbit for r in reps]
     P.group_order = group.order
     P.group_generators = list(group.generators)
     return P
@@ -234,7 +377,8 @@ def _vertices(points, Y, den, facets, group, status):
     A = np.array([f.a for f in facets], dtype=np.int64)
     b = np.array([f.b for f in facets], dtype=np.int64) * den
     is_vertex = {}
-    orbit_of = np.min(group.perms, axis=0)  # the smallest image of each point: one label per orbit
+    # the smallest image of each point: one label per orbit (each point its own label without the listed group)
+    orbit_of = np.min(group.perms, axis=0) if not isinstance(group, _Graph) else group.point_orbits(points)
     keep = []
     for j in range(len(points)):
         o = int(orbit_of[j])

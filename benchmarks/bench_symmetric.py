@@ -1,0 +1,125 @@
+"""Facets class by class (nogo.polytope.derive_symmetric) against a bare exact hull, in one run.
+
+For each case:
+
+* ``symmetric``: `derive_symmetric` from the compiled bundle (vertex search by the
+  LP oracle, symmetries lifted to the model and checked exactly, adjacency
+  decomposition, a Farkas certificate per class, the exact checks);
+* ``bare hull``: cddlib (pycddlib 2.1, rationals) on the final vertex list
+  alone, in probability coordinates: what a user would write by hand;
+* ``--three-party``: the 53,856-facet set (Śliwa 2003) by classes, serially and
+  on a 2-worker Dask ``LocalCluster`` (``nogo.fanout.engine``): the speed-up;
+* ``--four-settings SECONDS``: two parties with four binary settings under a
+  time limit (Zambrini Cruzeiro & Gisin, Phys. Rev. A 99, 022104 (2019): 175
+  classes), with classes told apart by the canonical graph (nauty).
+
+CPU seconds are given beside wall seconds: other work may share the machine.
+
+    python benchmarks/bench_symmetric.py
+    python benchmarks/bench_symmetric.py --three-party
+    python benchmarks/bench_symmetric.py --four-settings 600
+    python benchmarks/bench_symmetric.py --three-party-only 1   # (or 2) one half of --three-party
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+import time
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parent.parent
+sys.path.insert(0, str(ROOT))
+
+from nogo.compile import compile_bundle  # noqa: E402
+from nogo.polytope import _exact_hull, choose_frame, derive_symmetric  # noqa: E402
+from nogo.symmetry import bundle_generators  # noqa: E402
+from nogo.theory import load_theory  # noqa: E402
+
+
+def timed(fn):
+    w, c = time.perf_counter(), time.process_time()
+    out = fn()
+    return out, time.perf_counter() - w, time.process_time() - c
+
+
+def symmetric(theory: str, bundle: str, **kw):
+    th = load_theory(ROOT / "theories" / f"{theory}.yaml")
+    model = compile_bundle(th, bundle)
+    return derive_symmetric(model, generators=bundle_generators(th, bundle), **kw)
+
+
+def case(theory: str, bundle: str, expected: int, source: str, bare: bool = True) -> None:
+    P, w, c = timed(lambda: symmetric(theory, bundle))
+    ok = "OK" if len(P.facets) == expected else f"EXPECTED {expected}"
+    print(f"\n{theory} / {bundle}: {len(P.facets)} facets ({ok}; {source}), {len(P.classes)} classes, "
+          f"group order {P.group_order}, {P.stats.get('classes by')}")
+    print(f"  symmetric route          : {w:8.2f} s wall {c:8.2f} s cpu   ({P.stats['oracle_calls']} LP calls, "
+          f"{P.stats.get('ridge hulls', 0)} ridge hulls)")
+    for stage, t in P.stats["times"].items():
+        print(f"      {stage:<20} {t:8.2f} s")
+    if not bare:
+        return
+    fr = choose_frame(P.scenario, P.vertices, "probabilities")
+    h, hw, hc = timed(lambda: _exact_hull(fr, P.vertices))
+    assert len(h) == len(P.facets)
+    print(f"  bare hull (probabilities): {hw:8.2f} s wall {hc:8.2f} s cpu   ratio symmetric/bare (cpu) {c / hc:5.2f}"
+          f"  (wall {w / hw:5.2f})")
+
+
+def three_party() -> None:
+    from nogo.fanout import engine
+
+    P1, w1, c1 = timed(lambda: symmetric("bell-3x2", "Bell-local"))
+    with engine(local_workers=2):
+        P2, w2, _ = timed(lambda: symmetric("bell-3x2", "Bell-local"))
+    same = {(f.a, f.b) for f in P1.facets} == {(f.a, f.b) for f in P2.facets}
+    print(f"\nbell-3x2 / Bell-local (Śliwa, Phys. Lett. A 317, 165 (2003): 53,856 in 46): {len(P1.facets)} facets "
+          f"in {len(P1.classes)} classes")
+    print(f"  one process              : {w1:8.2f} s wall {c1:8.2f} s cpu")
+    print(f"  2-worker Dask LocalCluster: {w2:8.2f} s wall   speed-up 1 -> 2 workers {w1 / w2:5.2f}   "
+          f"same facets: {same}")
+
+
+def three_party_one(workers: int) -> None:
+    """One half of :func:`three_party` (each half under a minute, for a shared machine)."""
+    from contextlib import nullcontext
+
+    from nogo.fanout import engine
+
+    with (engine(local_workers=workers) if workers > 1 else nullcontext()):
+        P, w, c = timed(lambda: symmetric("bell-3x2", "Bell-local"))
+    print(f"\nbell-3x2 / Bell-local, {workers} worker(s): {len(P.facets)} facets in {len(P.classes)} classes, "
+          f"{w:.2f} s wall {c:.2f} s cpu (this process)")
+
+
+def four_settings(limit: float) -> None:
+    P, w, c = timed(lambda: symmetric("bell-2x4", "Bell-local", time_limit=limit))
+    sizes = sorted(P.class_sizes or [])
+    print(f"\nbell-2x4 / Bell-local (Zambrini Cruzeiro & Gisin, Phys. Rev. A 99, 022104 (2019): 175 classes): "
+          f"{P.status}, {len(P.classes)} classes ({sum(sizes):,} facets), group order {P.group_order}, "
+          f"{w:.1f} s wall {c:.1f} s cpu (limit {limit:.0f} s)")
+    print(f"  class sizes: {sizes}")
+    for stage, t in P.stats["times"].items():
+        print(f"      {stage:<20} {t:8.2f} s")
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser()
+    ap.add_argument("--three-party", action="store_true", help="the 53,856-facet set, 1 and 2 Dask workers")
+    ap.add_argument("--four-settings", type=float, metavar="SECONDS", help="two parties, four settings")
+    ap.add_argument("--three-party-only", type=int, metavar="WORKERS", help="only the 53,856-facet set, 1 or 2 workers")
+    args = ap.parse_args()
+    if args.three_party_only:
+        three_party_one(args.three_party_only)
+        return
+    case("bell-2x3", "Bell-local", 684, "Collins & Gisin, J. Phys. A 37, 1775 (2004)")
+    case("friends-2x3", "local-friendliness", 932, "Bong et al., Nature Physics 16, 1199 (2020)")
+    if args.three_party:
+        three_party()
+    if args.four_settings:
+        four_settings(args.four_settings)
+
+
+if __name__ == "__main__":
+    main()
