@@ -37,7 +37,7 @@ from dataclasses import dataclass
 from typing import Sequence
 
 from .errors import InputError, Where
-from .events import present_events, project_independence
+from .events import present_events, project_independence, read_out_rules
 from .model import Column, LinearModel, ModelArrays, RowSource
 from .scenario import EventVar, Scenario
 from .supports import refuse_support_only
@@ -66,17 +66,9 @@ def _check_linear(theory: Theory, assumptions) -> None:
 
 # -- the digit matrix and read-out masks ---------------------------------------
 def _ties(sc: Scenario, events: list[EventVar]):
-    """Read-out rules as (party position, event position, map observer index -> party index, setting)."""
+    """Read-out rules as (target position, source position, map source index -> target index, when)."""
     pos = {ev.name: i for i, ev in enumerate(events)}
-    out = []
-    for k, ev in enumerate(events):
-        if ev.kind == "inner":
-            o = sc.observer(ev.name)
-            if o.read_out_at is not None:
-                out.append((pos[o.lab], k, tuple(o.relabel), sc.party_index(o.lab), o.read_out_at))
-        elif ev.kind == "latent":
-            out.append((pos[ev.party], k, tuple(range(len(ev.outcomes))), sc.party_index(ev.party), ev.setting))
-    return out
+    return [(pos[r.target], pos[r.source], r.shown, r.when) for r in read_out_rules(sc, events)]
 
 
 def _digits(dims: list[int]):
@@ -218,12 +210,12 @@ def compile_linear(theory: Theory, spec: str | list[str]) -> LinearModel:
     masks: dict[tuple, np.ndarray] = {}
     col_s_parts, col_t_parts, start = [], [], [0]
     for si, s in enumerate(settings):
-        active = tuple(i for i, (_, _, _, pi, at) in enumerate(ties) if s[pi] == at)
+        active = tuple(i for i, (_, _, _, when) in enumerate(ties) if all(s[pi] == at for pi, at in when))
         kept = masks.get(active)
         if kept is None:
             m = np.ones(len(T), dtype=bool)
             for i in active:
-                lab, k, relabel, _, _ = ties[i]
+                lab, k, relabel, _ = ties[i]
                 m &= T[:, lab] == np.asarray(relabel, dtype=T.dtype)[T[:, k]]
             kept = masks[active] = np.flatnonzero(m)
         col_t_parts.append(kept)
