@@ -94,7 +94,7 @@ from dataclasses import dataclass, replace
 from fractions import Fraction
 from functools import lru_cache
 
-from .events import hub_settings, present_events, project_independence, read_out_ok
+from .events import hub_settings, present_events, project_independence, read_out_ok, read_out_rules
 from .linear import compile_linear
 from .errors import InputError, ModelTooLarge, Where
 from .model import Column, LinearModel, RowSource
@@ -251,18 +251,13 @@ def _groups(theory: Theory, b: _Bundle, events: list[EventVar],
     where_of = {a.name: a for a in assumptions}
     gi = {n: i for i, g in enumerate(groups) for n in g}
     sc = theory.scenario
-    for ev in events:
-        tie = None
-        if ev.kind == "inner" and sc.observer(ev.name).read_out_at is not None:
-            tie = ev.party
-        elif ev.kind == "latent":
-            tie = ev.party
-        if tie is not None and gi[ev.name] != gi[tie]:
+    for r in read_out_rules(sc, events):  # chains of read-outs resolved in nogo.events
+        if gi[r.source] != gi[r.target]:
             a = where_of[b.partitions[0][0]]
-            raise InputError(f"{ev.name} is read out as {tie}'s outcome, but '{by}' puts them in different groups; "
-                             "a read-out rule across groups forces both to be deterministic and is not a "
+            raise InputError(f"{r.source} is read out as {r.target}'s outcome, but '{by}' puts them in different "
+                             "groups; a read-out rule across groups forces both to be deterministic and is not a "
                              "product of response polytopes", _where(theory, a),
-                             f"put {ev.name} in {tie}'s group")
+                             f"put {r.source} in {r.target}'s group")
     return groups, by
 
 
@@ -329,24 +324,14 @@ def _deterministic_vertices(scenario: Scenario, spec: GroupSpec, cap: int,
     names = [ev.name for ev in events]
     # read-out couplings: (later var, earlier var, allowed pairs (later value, earlier value))
     checks: dict[int, dict[int, set]] = {}
+    outs = {ev.name: ev.outcomes for ev in events}
+    rules = read_out_rules(scenario, list(events))  # chains resolved in nogo.events
     for s in settings:
-        for ev in events:
-            if ev.kind == "inner":
-                o = scenario.observer(ev.name)
-                pi = scenario.party_index(o.lab)
-                if o.read_out_at is None or s[pi] != o.read_out_at:
-                    continue
-                party = scenario.parties[pi]
-                allowed = {(party.outcomes[o.relabel[k]], v) for k, v in enumerate(o.outcomes)}
-                u, w = var_index[(o.lab, key(o.lab, s))], var_index[(ev.name, key(ev.name, s))]
-            elif ev.kind == "latent":
-                pi = scenario.party_index(ev.party)
-                if s[pi] != ev.setting:
-                    continue
-                allowed = {(v, v) for v in ev.outcomes}
-                u, w = var_index[(ev.party, key(ev.party, s))], var_index[(ev.name, key(ev.name, s))]
-            else:
+        for r in rules:
+            if not r.active(s):
                 continue
+            allowed = {(outs[r.target][r.shown[k]], v) for k, v in enumerate(outs[r.source])}
+            u, w = var_index[(r.target, key(r.target, s))], var_index[(r.source, key(r.source, s))]
             if u == w:
                 continue
             # store on the later variable; pairs oriented (later, earlier)
