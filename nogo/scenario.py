@@ -435,8 +435,8 @@ def _one_reader_per_setting(inner: list[InnerObserver], inner_raw) -> None:
             if at == o.read_out_at or ALWAYS in (at, o.read_out_at):
                 raise InputError(
                     f"inner observers '{other}' and '{o.name}' are both read out at setting {o.read_out_at} of '{o.lab}'"
-                    if at == o.read_out_at else
-                    f"'{other}' and '{o.name}' both show their outcome as '{o.lab}''s, and one of them in every run",
+                    if at == o.read_out_at != ALWAYS else
+                    f"'{other}' and '{o.name}' are both read out by '{o.lab}', and one of them in every run",
                     inner_raw.where(o.name, f"scenario.inner_observers.{o.name}.read_out_at"),
                     "an outcome can follow only one observer at a given setting")
         seen.setdefault(o.lab, []).append((o.name, o.read_out_at))

@@ -188,6 +188,9 @@ class _Names:
                 hint = f"write '{name}.setting'" if name in self.scenario.party_names else "settings are written PARTY.setting"
                 raise InputError(f"'{name}' is not a setting", w, hint)
             if party not in self.scenario.party_names:
+                if party in {o.name for o in self.scenario.inner}:
+                    raise InputError(f"inner observer '{party}' chooses no setting of its own", w,
+                                     f"give '{party}' settings, e.g. settings: [1, 2], to make {name} a choice")
                 raise InputError(f"no party named '{party}'", w, suggest(party, self.scenario.party_names))
             out.append(party)
         return tuple(dict.fromkeys(out))
