@@ -149,3 +149,25 @@ def test_local_friendliness_equals_partly_determined():
     pd = {r.member.key: r.facets["partly-determined"] for r in fr.results}
     # two settings each: the Bell-local count (Fine 1982); no inner observers: no-signalling (positivity only)
     assert pd["2labs-s2x2-o2-friends-AB"] == 24 and pd["2labs-s2x2-o2-friends-none"] == 16
+
+
+def test_oracle_route_agrees_with_the_facet_route():
+    # two labs, two settings, friends in both: equal (Bong et al. 2020, arXiv:1907.05607), by either route
+    m = Member((2, 2), 2, (True, True))
+    by_oracle = run_job(Job(m, "lf-equals-bell", route="oracle"))
+    by_facets = run_job(Job(m, "lf-equals-bell", route="facets"))
+    assert by_oracle.answer == by_facets.answer == "equal"
+    assert by_oracle.facets == by_facets.facets == {"local-friendliness": 24, "Bell-local": 24}
+    assert "decided with re-checked Farkas certificates" in by_oracle.evidence[0]
+
+
+def test_oracle_comparison_finds_a_failing_bell_facet_when_the_sets_differ():
+    # three settings each: local friendliness is strictly larger (932 vs 684 facets, Bong et al. 2020);
+    # without the witness search the oracle route must find a Bell-local facet that fails on it
+    from nogo.family import MemberResult, _equal_by_oracle, estimate
+
+    m = Member((3, 3), 2, (True, True))
+    res = MemberResult(m, "lf-equals-bell", "", estimate(m))
+    _equal_by_oracle(m.theory(), res, None, None)
+    assert res.answer == "not equal" and res.facets == {"Bell-local": 684}
+    assert "fails on local friendliness" in res.evidence[0]

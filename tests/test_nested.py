@@ -300,3 +300,16 @@ def test_smt_refuses_support_only_clauses_unless_implied():
     # (K.-W. Bong et al., Nature Physics 16, 1199 (2020))
     assert implies_z3(th, "both-forms", chsh) is True
     assert implies_z3(th, "local-friendliness", chsh) is True
+
+
+def test_show_prints_the_resolved_chains_and_the_choice_cone():
+    import subprocess
+    import sys
+
+    out = subprocess.run([sys.executable, "-m", "nogo", "show", str(T / "friends-2x3-nested.yaml")],
+                         capture_output=True, text=True, cwd=ROOT).stdout
+    assert "read-out: A's outcome equals A_deep's when A's setting is 1 (through A_out" in out
+    out = subprocess.run([sys.executable, "-m", "nogo", "show", str(T / "friends-2x2-choice.yaml")],
+                         capture_output=True, text=True, cwd=ROOT).stdout
+    assert "future light cone of A_f.setting: A_f, A; outside it: B, A_g, B_in" in out
+    assert "chooses among settings ['1', '2'] (setting variable A_f.setting)" in out
