@@ -99,9 +99,9 @@ def _lab_count(scenario, party, x: str, absolute: set[str], counterfactual: set[
     count = 1
     tied = False
     for o in scenario.inner:
-        if o.lab == party.name and o.name in absolute:
+        if (o.party or o.lab) == party.name and o.name in absolute:  # nested observers too (an upper bound)
             count *= len(o.outcomes)
-            tied = tied or o.read_out_at == x
+            tied = tied or (o.lab == party.name and o.read_out_at == x)
     if party.name in counterfactual:
         count *= n_out ** len(party.settings)
         if tied:

@@ -313,3 +313,30 @@ def test_show_prints_the_resolved_chains_and_the_choice_cone():
                          capture_output=True, text=True, cwd=ROOT).stdout
     assert "future light cone of A_f.setting: A_f, A; outside it: B, A_g, B_in" in out
     assert "chooses among settings ['1', '2'] (setting variable A_f.setting)" in out
+
+
+def test_light_cone_places_an_observers_choice():
+    text = (T / "friends-2x2-choice.yaml").read_text().replace(
+        "  name: agency\n", "  name: agency\n  after_choice: [A_g]\n  future: {A_f.setting: [B]}\n")
+    th = load_theory_text(text, "placed.yaml")
+    # A_g now measures after A_f's choice; B lies in that choice's future; A is recorded after A_f
+    assert th.light_cone.future["A_f"] == ("A_f", "A_g", "B", "A")
+    assert th.assumptions["agency-A_f"].clauses[0].events == ("B_in",)
+    assert th.assumptions["agency-A"].clauses[0].events == ("B", "A_f", "A_g", "B_in")
+
+
+def test_mixture_model_reads_a_chain_through_an_absent_observer():
+    # the partially deterministic set of a family member (arXiv:2510.25127), with A's friend read out
+    # through an absent middle observer: the same exact maxima as the flat member
+    from nogo.family import Member
+
+    flat_text = Member((3, 3), 2, (True, True)).theory_text()
+    nested_text = flat_text.replace(
+        "    A_in: {lab: A, outcomes: [+1, -1], read_out_at: 1}",
+        "    A_mid: {lab: A, outcomes: [+1, -1], read_out_at: 1}\n"
+        "    A_in: {lab: A_mid, outcomes: [+1, -1], read_out_at: always}")
+    assert nested_text != flat_text
+    flat, nested = load_theory_text(flat_text, "flat.yaml"), load_theory_text(nested_text, "nested.yaml")
+    assert compile_bundle(nested, "partly-determined").kind == "mixture"
+    texts = _lifted_family(flat.scenario, 3)[::5]
+    assert _maxima(nested, "partly-determined", texts) == _maxima(flat, "partly-determined", texts)
