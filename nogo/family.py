@@ -429,7 +429,9 @@ def _lf_vs_bell(job: Job, th, res: MemberResult, deadline) -> None:
             res.notes.append(f"exact hull estimated at {res.estimate['hull']}: not attempted (reach 'all' tries it)")
         return
     if job.route == "oracle" and wit is None:  # equality expected: one hull, the rest by the oracle
-        _equal_by_oracle(th, res, deadline, wit)
+        from .family_oracle import equal_by_oracle  # noqa: PLC0415 - family_oracle imports nothing of family
+
+        equal_by_oracle(th, res, deadline)
         return
     r1 = facets(th, "local-friendliness", cache=False, time_limit=_remaining(deadline))
     r2 = facets(th, "Bell-local", cache=False, time_limit=_remaining(deadline))
@@ -452,74 +454,6 @@ def _lf_vs_bell(job: Job, th, res: MemberResult, deadline) -> None:
         res.notes.append("a witness and the facet comparison disagree: investigate")
         return
     res.answer = answer
-
-
-def _equal_by_oracle(th, res: MemberResult, deadline, wit) -> None:
-    """Local friendliness against the Bell-local set with one hull only (the Bell-local one).
-
-    Two polytopes are equal iff each one's vertices lie in the other.  The
-    Bell-local vertices are derived exactly; each is shown to lie in the
-    local-friendliness model by a certified preimage (an exact point of the
-    model).  The other direction needs no vertex of local friendliness: it
-    lies inside the Bell-local set iff every Bell-local facet holds on it,
-    which the LP oracle decides with a Farkas certificate (re-checked
-    exactly).  One facet per orbit under the verified symmetries of the
-    local-friendliness model is decided: a symmetry of the model maps a
-    certificate to a certificate (:func:`nogo.symmetry.lift_to_model`).
-    """
-    from .check import decide, recheck
-    from .compile import compile_bundle
-    from .facets import facets
-    from .polytope.oracle import oracle_batch
-    from .symmetry import bundle_generators, lift_to_model, orbit
-
-    t0 = time.perf_counter()
-    r2 = facets(th, "Bell-local", cache=False, time_limit=_remaining(deadline))
-    if r2.status != "complete":
-        res.answer = res.answer or "out of time"
-        res.notes.append("Bell-local facet derivation hit the time limit")
-        return
-    res.facets = {"Bell-local": len(r2.facets)}
-    res.classes = {"Bell-local": len(r2.classes)}
-    lf = compile_bundle(th, "local-friendliness")
-    missing = [v for v, a in zip(r2.vertices, oracle_batch((lf, "member", list(r2.vertices)))) if a.point != tuple(v)]
-    if missing:
-        res.answer = res.answer or "unverified"
-        res.notes.append(f"{len(missing)} Bell-local vertices without a certified preimage in local friendliness")
-        return
-    gens = [g for g in bundle_generators(th, "local-friendliness") if lift_to_model(lf, g) is not None]
-    todo = {f.inequality.canonical(): f for f in r2.facets}
-    decided = 0
-    while todo:
-        if deadline is not None and time.perf_counter() > deadline:
-            res.answer = res.answer or "out of time"
-            res.notes.append(f"oracle comparison stopped at the time limit ({len(todo)} facets left)")
-            return
-        f = todo.pop(next(iter(todo)))
-        r = decide(lf, f.inequality)
-        bad = recheck(lf, r)
-        if bad:
-            res.answer, _ = "unverified", res.notes.append(f"re-check failed: {bad}")
-            return
-        decided += 1
-        if not r.implied:
-            res.answer, res.relation = "not equal", "Bell-local inside local friendliness, strictly"
-            res.evidence.append(f"Bell-local facet {f.text} fails on local friendliness: maximum {r.maximum} "
-                                f"(rational point of the model, re-checked exactly)")
-            return
-        for q in orbit(f.inequality, gens):
-            todo.pop(q.canonical(), None)
-    if wit is not None:
-        res.answer = "disagreement"
-        res.notes.append("a witness and the oracle comparison disagree: investigate")
-        return
-    res.answer, res.relation = "equal", "equal"
-    res.facets["local-friendliness"] = len(r2.facets)
-    res.evidence.append(
-        f"Bell-local set derived exactly ({len(r2.facets)} facets, {len(r2.vertices)} vertices); every vertex "
-        f"has a certified preimage in the local-friendliness model; every Bell-local facet holds on local "
-        f"friendliness: {decided} decided with re-checked Farkas certificates, the rest their images under "
-        f"{len(gens)} verified symmetry generators of the model ({time.perf_counter() - t0:.1f} s)")
 
 
 def _compare_sets(job: Job, th, res: MemberResult, deadline, other: str) -> None:

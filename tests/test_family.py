@@ -164,10 +164,11 @@ def test_oracle_route_agrees_with_the_facet_route():
 def test_oracle_comparison_finds_a_failing_bell_facet_when_the_sets_differ():
     # three settings each: local friendliness is strictly larger (932 vs 684 facets, Bong et al. 2020);
     # without the witness search the oracle route must find a Bell-local facet that fails on it
-    from nogo.family import MemberResult, _equal_by_oracle, estimate
+    from nogo.family import MemberResult, estimate
+    from nogo.family_oracle import equal_by_oracle
 
     m = Member((3, 3), 2, (True, True))
     res = MemberResult(m, "lf-equals-bell", "", estimate(m))
-    _equal_by_oracle(m.theory(), res, None, None)
+    equal_by_oracle(m.theory(), res, None)
     assert res.answer == "not equal" and res.facets == {"Bell-local": 684}
     assert "fails on local friendliness" in res.evidence[0]
