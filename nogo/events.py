@@ -10,6 +10,7 @@ so that neither compiler imports the other's module to reach them.
 
 from __future__ import annotations
 
+import itertools
 from dataclasses import dataclass
 
 from .scenario import EventVar, Scenario
@@ -161,3 +162,56 @@ def hub_settings(scenario: Scenario, of: tuple[str, ...]) -> dict[tuple[str, ...
     moved = {scenario.party_index(p) for p in of}
     return {s: tuple(scenario.parties[i].settings[0] if i in moved else x for i, x in enumerate(s))
             for s in scenario.setting_tuples()}
+
+
+def column_count(scenario: Scenario, events: list[EventVar]) -> int:
+    """The number of columns q(e | s) that obey the read-out rules, exactly, without listing them.
+
+    Read-out rules never leave a lab (a party with every observer inside it
+    and their choices), so the count is a product over labs of a sum over
+    the lab's own settings; within a lab the active rules form a forest
+    (each source is read out as one target) and the assignments are counted
+    from the leaves up (a relabelling that merges outcomes leaves several
+    values of a source per value of its target).
+    """
+    rules = read_out_rules(scenario, events)
+    home = {p.name: p.name for p in scenario.labs}
+    home.update({o.name: o.party for o in scenario.inner if o.settings})  # choice parties
+    lab_of = {ev.name: (ev.party if ev.kind != "party" else home[ev.party]) for ev in events}
+    total = 1
+    for lab in scenario.labs:
+        idx = [i for i, p in enumerate(scenario.parties) if home[p.name] == lab.name]
+        evs = [ev for ev in events if lab_of[ev.name] == lab.name]
+        mine = [r for r in rules if lab_of[r.source] == lab.name]
+        subtotal = 0
+        for combo in itertools.product(*(scenario.parties[i].settings for i in idx)):
+            s = {i: x for i, x in zip(idx, combo)}
+            active = [r for r in mine if all(s.get(k) == x for k, x in r.when)]
+            subtotal += _forest_count(evs, active)
+        total *= subtotal
+    return total
+
+
+def _forest_count(evs: list[EventVar], active: list[ReadOut]) -> int:
+    outs = {ev.name: ev.outcomes for ev in evs}
+    children: dict[str, list[ReadOut]] = {}
+    for r in active:
+        children.setdefault(r.target, []).append(r)
+    tied = {r.source for r in active}
+
+    def ways(name: str, value_index: int | None) -> int:
+        """Assignments of the subtree under *name* given its value (None: summed over its values)."""
+        vals = range(len(outs[name])) if value_index is None else [value_index]
+        n = 0
+        for v in vals:
+            m = 1
+            for r in children.get(name, []):
+                m *= sum(ways(r.source, u) for u in range(len(outs[r.source])) if r.shown[u] == v)
+            n += m
+        return n
+
+    out = 1
+    for ev in evs:
+        if ev.name not in tied:
+            out *= ways(ev.name, None)
+    return out
