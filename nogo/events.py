@@ -215,3 +215,12 @@ def _forest_count(evs: list[EventVar], active: list[ReadOut]) -> int:
         if ev.name not in tied:
             out *= ways(ev.name, None)
     return out
+
+
+def read_out_notes(scenario: Scenario, events: list[EventVar], prefix: str = "read-out") -> list[str]:
+    """Model notes for the read-out rules of a nested scenario (chains resolved); [] for a flat one,
+    whose compilers write their own one-level notes."""
+    if not scenario.nested:
+        return []
+    inner = {o.name for o in scenario.inner}
+    return [f"{prefix}: {read_out_text(scenario, r)}" for r in read_out_rules(scenario, events) if r.source in inner]

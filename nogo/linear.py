@@ -37,7 +37,7 @@ from dataclasses import dataclass
 from typing import Sequence
 
 from .errors import InputError, Where
-from .events import present_events, project_independence, read_out_rules
+from .events import present_events, project_independence, read_out_notes, read_out_rules
 from .model import Column, LinearModel, ModelArrays, RowSource
 from .scenario import EventVar, Scenario
 from .supports import refuse_support_only
@@ -236,8 +236,9 @@ def compile_linear(theory: Theory, spec: str | list[str]) -> LinearModel:
 
     notes: list[str] = list(support_notes)
     for o in sc.inner:
-        if o.name in names and o.read_out_at is not None:
+        if o.name in names and o.read_out_at is not None and not sc.nested:
             notes.append(f"read-out: {o.lab}'s outcome equals {o.name}'s when {o.lab}'s setting is {o.read_out_at}")
+    notes += read_out_notes(sc, events)  # nested observers: chains resolved
     for p in sc.parties:
         if f"{p.name}@{p.settings[0]}" in names:
             notes.append(f"counterfactual outcomes {p.name}@x exist jointly; {p.name} = {p.name}@x at setting x")

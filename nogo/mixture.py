@@ -94,7 +94,8 @@ from dataclasses import dataclass, replace
 from fractions import Fraction
 from functools import lru_cache
 
-from .events import hub_settings, present_events, project_independence, read_out_ok, read_out_rules
+from .events import (hub_settings, present_events, project_independence, read_out_notes, read_out_ok,
+                     read_out_rules)
 from .linear import compile_linear
 from .errors import InputError, ModelTooLarge, Where
 from .model import Column, LinearModel, RowSource
@@ -742,9 +743,10 @@ def compile_mixture(theory: Theory, spec: str | list[str], max_columns: int = 20
         notes.append(f"{lam} may depend on the settings of {', '.join(dep)}: one set of weights per value of them "
                      f"({len(classes)}), over the responses that differ at those settings ({len(columns)} columns)")
     for o in sc.inner:
-        if o.name in names and o.read_out_at is not None:
+        if o.name in names and o.read_out_at is not None and not sc.nested:
             notes.append(f"read-out (in every response): {o.lab}'s outcome equals {o.name}'s when {o.lab}'s "
                          f"setting is {o.read_out_at}")
+    notes += read_out_notes(sc, list(events), "read-out (in every response)")  # nested: chains resolved
     extra = {"hidden": lam, "events": tuple(names), "groups": tuple(groups), "group_vertices": tuple(tuple(x) for x in pc),
              "classes": tuple(classes), "free_of": tuple(p for p, f in zip(sc.party_names, free) if f),
              "column_parts": parts_of}
