@@ -152,11 +152,18 @@ class Member:
                   "    source: S. Popescu and D. Rohrlich, Found. Phys. 24, 379 (1994)", "    independent:"]
         lines += [f"      - {{events: [{', '.join(q for q in self.parties if q != p)}], of: [{p}.setting], given: [lam]}}"
                   for p in self.parties]
+        allcf = ", ".join(f'"{p}@*"' for p in self.parties)
+        lines += ["  counterfactual:", "    says: an outcome exists for every setting of every lab, jointly",
+                  "    source: A. Fine, Phys. Rev. Lett. 48, 291 (1982)", f"    counterfactual: [{', '.join(self.parties)}]",
+                  "  setting-independence:", "    says: the counterfactual outcomes do not depend on the settings chosen",
+                  "    source: A. Fine, Phys. Rev. Lett. 48, 291 (1982)",
+                  f"    independent: {{events: [{allcf}], of: [{sets}]}}"]
         pd = (["absoluteness"] if friends else []) + ["hidden", "lam-free"] + \
             (["records-fixed", "records-free"] if recs else []) + ["no-signal-given-lam"]
         lines += ["bundles:", f"  partly-determined: [{', '.join(pd)}]",
                   f"  local-friendliness: [{', '.join((['absoluteness'] if friends else []) + [f'agency-{p}' for p in self.parties])}]",
-                  "  Bell-local: [hidden, lam-free, predetermined-local]"]
+                  "  Bell-local: [hidden, lam-free, predetermined-local]",
+                  "  Bell-local-joint: [counterfactual, setting-independence]"]
         return "\n".join(lines) + "\n"
 
     def theory(self):
