@@ -172,3 +172,13 @@ def test_oracle_comparison_finds_a_failing_bell_facet_when_the_sets_differ():
     equal_by_oracle(m.theory(), res, None)
     assert res.answer == "not equal" and res.facets == {"Bell-local": 684}
     assert "fails on local friendliness" in res.evidence[0]
+
+
+def test_table_says_the_classification_is_from_memory():
+    from nogo.family_output import CRITERION, NOTE, markdown_table
+
+    fr = run_family(Template(labs=(2,), settings=("2",), friends=("all",)), "lf-equals-bell")
+    md = markdown_table(fr)
+    assert CRITERION in md.splitlines()[0] and "from memory" in CRITERION
+    assert "not checked against the paper" in NOTE and NOTE in md
+    assert md.splitlines()[2].rstrip(" |").endswith("equal")  # the recalled criterion agrees here
