@@ -249,9 +249,10 @@ def _parse_assumption(name: str, spec, amap: YMap, names: _Names) -> Assumption:
             elif key == "counterfactual":
                 plist = item if isinstance(item, list) else [item]
                 parties = []
+                labs = [q.name for q in names.scenario.labs]
                 for p in plist:
-                    if str(p) not in names.scenario.party_names:
-                        raise InputError(f"no party named '{p}'", at(key), suggest(str(p), names.scenario.party_names))
+                    if str(p) not in labs:  # an observer's choice records no outcome of its own
+                        raise InputError(f"no party named '{p}'", at(key), suggest(str(p), labs))
                     parties.append(str(p))
                 clauses.append(Counterfactual(tuple(parties)))
             elif key == "hidden":
