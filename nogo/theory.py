@@ -164,8 +164,9 @@ class _Names:
             name = str(v)
             if name.endswith("@*"):
                 party = name[:-2]
-                if party not in self.scenario.party_names:
-                    raise InputError(f"no party named '{party}' in '{name}'", w, suggest(party, self.scenario.party_names))
+                labs = [p.name for p in self.scenario.labs]
+                if party not in labs:
+                    raise InputError(f"no party named '{party}' in '{name}'", w, suggest(party, labs))
                 out += [e.name for e in self.scenario.latent_events(party)]
             elif name in self.events or (allow_hidden and name in self.hidden):
                 out.append(name)
