@@ -340,3 +340,17 @@ def test_mixture_model_reads_a_chain_through_an_absent_observer():
     assert compile_bundle(nested, "partly-determined").kind == "mixture"
     texts = _lifted_family(flat.scenario, 3)[::5]
     assert _maxima(nested, "partly-determined", texts) == _maxima(flat, "partly-determined", texts)
+
+
+@pytest.mark.slow  # about 15 s of CPU, more on a shared machine
+def test_collapsing_chain_in_three_settings_keeps_the_932_facets():
+    # K.-W. Bong et al., Nature Physics 16, 1199 (2020), arXiv:1907.05607: 932 facets
+    from nogo.facets import facets
+
+    flat = facets(load_theory(T / "friends-2x3.yaml"), "local-friendliness", cache=False)
+    nested_th = load_theory(T / "friends-2x3-nested.yaml")
+    rows = {(f.a, f.b) for f in flat.facets}
+    assert len(rows) == 932
+    for bundle in ("local-friendliness", "local-friendliness-deep"):
+        nested = facets(nested_th, bundle, cache=False)
+        assert {(f.a, f.b) for f in nested.facets} == rows, bundle
