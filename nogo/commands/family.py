@@ -99,7 +99,9 @@ def run(args) -> int:
         else:
             for r in rows:
                 print(f"{r['member']}: dimension {r['dimension']}, {r['bell_vertices']} deterministic strategies, "
-                      f"hull {r['hull']}; {'in reach' if r['hull_in_reach'] else 'beyond reach'}")
+                      f"hull {r['hull']}; {'in reach' if r['hull_in_reach'] else 'beyond reach'}"
+                      + ("" if r["hull_in_reach"] else "; Bell-local hull class by class (oracle route): "
+                         + ("in reach" if r["bell_hull_by_classes_in_reach"] else "beyond reach")))
         return 0
     fr = run_family(template, args.question, bundle=args.bundle, inequality=args.inequality,
                     time_limit=args.time_limit, workers=args.workers, reach=args.reach,
