@@ -60,7 +60,7 @@ def test_fixed_point_three_settings_not_equal():
 def test_classification_on_members_in_reach():
     # arXiv:2407.20346 (classification from memory, see above)
     t = Template(labs=(2, 3), settings=("2", "3/2"), outcomes=(2,), friends=("each",))
-    fr = run_family(t, "lf-equals-bell", time_limit=120)
+    fr = run_family(t, "lf-equals-bell", time_limit=120, route="facets")  # the oracle route: results/families
     assert len(fr.results) == 3 + 4 + 4  # (2,2): AB, A, none; (3,2): AB, A, B, none; (2,2,2): ABC, AB, A, none
     decided = 0
     for r in fr.results:
