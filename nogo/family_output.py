@@ -9,9 +9,24 @@ from __future__ import annotations
 from .family import FamilyResult
 
 
+#: the column that states the published classification, as this project recalls it (not looked up)
+CRITERION = "arXiv:2407.20346 (from memory)"
+NOTE = ("Column '" + CRITERION + "': the classification of M. Haddara and E. G. Cavalcanti, arXiv:2407.20346, "
+        "as recalled here and not checked against the paper: local friendliness equals the Bell-local set exactly "
+        "when at most one lab has two or more settings besides those read out from its inner observers.  nogo does "
+        "not use it; the column 'answer' is computed.")
+
+
+def criterion_from_memory(m) -> str:
+    """What the recalled classification says of a member (only for the lf-equals-bell question)."""
+    free = [s - (m.sequence if f else 0) for s, f in zip(m.settings, m.friends)]
+    return "equal" if sum(1 for x in free if x >= 2) <= 1 else "not equal"
+
+
 def table_rows(fr: FamilyResult) -> list[list[str]]:
+    crit = fr.question == "lf-equals-bell"
     head = ["member", "labs", "settings", "inner observers", "dimension", "hull estimate", "answer", "facets",
-            "evidence", "seconds"]
+            "evidence", "seconds"] + ([CRITERION] if crit else [])
     rows = [head]
     for r in fr.results:
         m = r.member
@@ -20,7 +35,7 @@ def table_rows(fr: FamilyResult) -> list[list[str]]:
         rows.append([m.key, str(m.labs), "/".join(map(str, m.settings)),
                      ",".join(p for p, f in zip(m.parties, m.friends) if f) or "none",
                      str(r.estimate["dimension"]), r.estimate["hull"].split(" (")[0], r.answer, fac, ev,
-                     str(r.seconds)])
+                     str(r.seconds)] + ([criterion_from_memory(m)] if crit else []))
     return rows
 
 
@@ -28,6 +43,8 @@ def markdown_table(fr: FamilyResult) -> str:
     rows = table_rows(fr)
     out = ["| " + " | ".join(rows[0]) + " |", "|" + "---|" * len(rows[0])]
     out += ["| " + " | ".join(c.replace("|", "\\|") for c in r) + " |" for r in rows[1:]]
+    if fr.question == "lf-equals-bell":
+        out += ["", NOTE]
     return "\n".join(out) + "\n"
 
 

@@ -24,6 +24,7 @@ The declaration (our own layout; every key optional)::
       says: one line in words
       name: local-agency            # prefix of the generated assumptions and bundles
       after_choice: [A_in]          # inner observers that measure after their lab's choice
+                                    # (nested: after the choice of the nearest enclosing lab that chooses)
       future:                       # further events inside a choice's future light cone
         A.setting: [B]              # (e.g. lab B lies in the causal future of A's choice)
       weak: true                    # also generate the one-lab-at-a-time reading
@@ -31,7 +32,11 @@ The declaration (our own layout; every key optional)::
 
 By default the labs are pairwise space-like separated and every inner
 observer measures before its lab's choice (the canonical local-friendliness
-set-up), so the future light cone of X.setting holds X's outcome only.
+set-up), so the future light cone of X.setting holds X's outcome only.  An
+inner observer F with settings of its own (a choice ``F.setting``) chooses
+before it measures: the future light cone of F.setting holds F's record and
+every lab around F (each lab's outcome is recorded after what is inside it);
+every cone is closed under that "lab around" relation.
 
 ``reading: supports`` states possibilistic local agency (arXiv:2205.12223):
 an intervention cannot change which events outside its future light cone are
@@ -90,14 +95,46 @@ class LightCone:
     def outside(self, scenario: Scenario, party: str) -> tuple[str, ...]:
         """Party outcomes and inner records outside the future light cone of *party*'s choice."""
         inside = set(self.future[party])
-        events = [p.name for p in scenario.parties] + [o.name for o in scenario.inner]
+        events = [p.name for p in scenario.labs] + [o.name for o in scenario.inner]
         return tuple(e for e in events if e not in inside)
+
+
+def _closed(scenario: Scenario, future: dict[str, list[str]]) -> dict[str, tuple[str, ...]]:
+    """Each future light cone closed under "the lab measures after what is inside it".
+
+    A party's outcome, or an outer observer's, is recorded after every
+    observer inside its lab; so whatever lies in a choice's future light cone
+    puts the labs around it there too (a nested observer's choice reaches the
+    outer observers and the party).  Leaves the canonical cones unchanged.
+    """
+    lab_of = {o.name: o.lab for o in scenario.inner}
+    out = {}
+    for p, evs in future.items():
+        seen = list(dict.fromkeys(evs))
+        for e in seen:  # grows while it is walked
+            if e in lab_of and lab_of[e] not in seen:
+                seen.append(lab_of[e])
+        out[p] = tuple(seen)
+    return out
+
+
+def _initial(scenario: Scenario) -> dict[str, list[str]]:
+    """A party's choice: its own outcome; an observer's own choice: its own record."""
+    return {p.name: [p.name if p.choice_of is None else p.choice_of] for p in scenario.parties}
 
 
 def default_light_cone(scenario: Scenario, name: str = "local-agency", weak: bool = False,
                        readings: tuple[str, ...] = ("joint",)) -> LightCone:
     """Labs pairwise space-like, every inner observer before its lab's choice."""
-    return LightCone({p.name: (p.name,) for p in scenario.parties}, name, weak, readings)
+    return LightCone(_closed(scenario, _initial(scenario)), name, weak, readings)
+
+
+def _choice_around(scenario: Scenario, observer: str) -> str:
+    """The choice an observer's "after its lab's choice" refers to: the nearest lab (outwards) that chooses."""
+    o = scenario.observer(observer)
+    while o.lab not in scenario.party_names:  # an observer lab without choices of its own
+        o = scenario.observer(o.lab)
+    return o.lab
 
 
 def _names(raw, where: Where, pool: list[str], what: str) -> list[str]:
@@ -130,10 +167,10 @@ def light_cone_from_yaml(raw, scenario: Scenario, where: Where) -> LightCone:
     if not name or not all(ch.isalnum() or ch in "-_" for ch in name):
         raise InputError(f"'{name}' is not a usable name prefix", at("name"), "use letters, digits, '-' and '_'")
     inner = [o.name for o in scenario.inner]
-    events = list(scenario.party_names) + inner
-    future = {p.name: [p.name] for p in scenario.parties}
+    events = [p.name for p in scenario.labs] + inner
+    future = _initial(scenario)
     for o in _names(raw.get("after_choice", []), at("after_choice"), inner, "inner observers"):
-        future[scenario.observer(o).lab].append(o)
+        future[_choice_around(scenario, o)].append(o)
     fut = raw.get("future") or {}
     if not isinstance(fut, dict):
         raise InputError("'future' maps a choice (PARTY.setting) to the events in its future light cone", at("future"))
@@ -142,8 +179,8 @@ def light_cone_from_yaml(raw, scenario: Scenario, where: Where) -> LightCone:
         key = str(k)
         party = key[:-len(".setting")] if key.endswith(".setting") else None
         if party not in scenario.party_names:
-            raise InputError(f"'{key}' is not a choice", w, "write PARTY.setting, e.g. "
-                             f"'{scenario.party_names[0]}.setting'")
+            raise InputError(f"'{key}' is not a choice", w, "write PARTY.setting (or OBSERVER.setting for an "
+                             f"inner observer with settings of its own), e.g. '{scenario.party_names[0]}.setting'")
         future[party] += _names(evs, w, events, "events")
     weak = raw.get("weak", False)
     if not isinstance(weak, bool):
@@ -153,7 +190,7 @@ def light_cone_from_yaml(raw, scenario: Scenario, where: Where) -> LightCone:
     if readings is None:
         raise InputError(f"unknown reading '{reading}'", at("reading"), suggest(reading, ["joint", "supports", "both"]))
     line = getattr(where, "line", None)
-    return LightCone({p: tuple(dict.fromkeys(v)) for p, v in future.items()}, name, weak, readings,
+    return LightCone(_closed(scenario, future), name, weak, readings,
                      str(raw.get("says", "")), line)
 
 

@@ -43,7 +43,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from .errors import InputError, Where
-from .events import present_events, project_independence
+from .events import present_events, project_independence, read_out_notes, read_out_rules
 from .lazyseq import LazySeq
 from .model import Column, LinearModel, ModelArrays, RowSource
 from .scenario import EventVar, Scenario
@@ -73,17 +73,9 @@ def _check_linear(theory: Theory, assumptions) -> None:
 
 # -- the digit matrix and read-out masks ---------------------------------------
 def _ties(sc: Scenario, events: list[EventVar]):
-    """Read-out rules as (party position, event position, map observer index -> party index, setting)."""
+    """Read-out rules as (target position, source position, map source index -> target index, when)."""
     pos = {ev.name: i for i, ev in enumerate(events)}
-    out = []
-    for k, ev in enumerate(events):
-        if ev.kind == "inner":
-            o = sc.observer(ev.name)
-            if o.read_out_at is not None:
-                out.append((pos[o.lab], k, tuple(o.relabel), sc.party_index(o.lab), o.read_out_at))
-        elif ev.kind == "latent":
-            out.append((pos[ev.party], k, tuple(range(len(ev.outcomes))), sc.party_index(ev.party), ev.setting))
-    return out
+    return [(pos[r.target], pos[r.source], r.shown, r.when) for r in read_out_rules(sc, events)]
 
 
 def _digits(dims: list[int]):
@@ -469,12 +461,12 @@ def _columns(settings, T, ties):
     masks: dict[tuple, np.ndarray] = {}
     col_s_parts, col_t_parts, start = [], [], [0]
     for si, s in enumerate(settings):
-        active = tuple(i for i, (_, _, _, pi, at) in enumerate(ties) if s[pi] == at)
+        active = tuple(i for i, (_, _, _, when) in enumerate(ties) if all(s[pi] == at for pi, at in when))
         kept = masks.get(active)
         if kept is None:
             m = np.ones(len(T), dtype=bool)
             for i in active:
-                lab, k, relabel, _, _ = ties[i]
+                lab, k, relabel, _ = ties[i]
                 m &= T[:, lab] == np.asarray(relabel, dtype=T.dtype)[T[:, k]]
             kept = masks[active] = np.flatnonzero(m)
         col_t_parts.append(kept)
@@ -501,11 +493,13 @@ def _observation(sc: Scenario, n_set: int, strides, col_s, col_t):
                   (n_col, n_set * n_out))
 
 
-def _readout_notes(sc: Scenario, names) -> list[str]:
+def _readout_notes(sc: Scenario, events: list[EventVar]) -> list[str]:
+    names = {e.name for e in events}
     notes = []
     for o in sc.inner:
-        if o.name in names and o.read_out_at is not None:
+        if o.name in names and o.read_out_at is not None and not sc.nested:
             notes.append(f"read-out: {o.lab}'s outcome equals {o.name}'s when {o.lab}'s setting is {o.read_out_at}")
+    notes += read_out_notes(sc, events)  # nested observers: chains resolved
     for p in sc.parties:
         if f"{p.name}@{p.settings[0]}" in names:
             notes.append(f"counterfactual outcomes {p.name}@x exist jointly; {p.name} = {p.name}@x at setting x")
@@ -558,7 +552,7 @@ def compile_linear(theory: Theory, spec: str | list[str]) -> LinearModel:
     T, strides = _digits([len(e.outcomes) for e in events])
     col_s, col_t, start = _columns(settings, T, _ties(sc, events))
     O = _observation(sc, len(settings), strides, col_s, col_t)
-    notes += _readout_notes(sc, names)
+    notes += _readout_notes(sc, events)
     blocks, n_pot = _blocks(sc, assumptions, events, T, col_t, notes)
     rows = CompiledRows(start, col_s, blocks, n_pot)
     m = rows.shape[0]

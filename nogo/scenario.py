@@ -11,6 +11,18 @@ only when an assumption declares it absolute) and latent counterfactual
 outcomes ``A@x`` (present only under joint existence of counterfactual
 outcomes).  Labels of settings and outcomes are kept as strings exactly as a
 user would write them; numeric outcome values are kept for correlators.
+
+Nested observers and observers' own choices (DEVELOPERS.md, "Nested
+observers and observers' choices"): an inner observer's ``lab`` may name
+another inner observer (a friend of a friend); its read-out rule then says
+when *that observer's* outcome equals its own — at one of the outer
+observer's own settings, or ``always``.  An inner observer with ``settings``
+chooses among them in every run: the choice is a setting variable
+``NAME.setting``, held in the settings tuple after the parties' settings as a
+*choice party* (:attr:`Party.choice_of`) with one fixed outcome ``c``, so
+that every stage that speaks of settings tuples (independence, light cones,
+observed coordinates) speaks of it without a second code path.  Chains of
+read-out rules are resolved in :func:`nogo.events.read_out_rules`.
 """
 
 from __future__ import annotations
@@ -29,6 +41,13 @@ class Party:
     settings: tuple[str, ...]
     outcomes: tuple[str, ...]
     values: tuple[Fraction, ...] | None  # numeric outcome values (for correlators)
+    choice_of: str | None = None  # the inner observer whose own choice this setting variable is
+
+
+#: the one outcome of a choice party (its setting is the observer's choice; it records nothing itself)
+CHOICE_OUTCOME = "c"
+#: ``read_out_at: always``: an observer inside another observer's lab, read out in every run
+ALWAYS = "always"
 
 
 @dataclass(frozen=True)
@@ -37,8 +56,10 @@ class InnerObserver:
     lab: str
     outcomes: tuple[str, ...]
     read_out_at: str | None
-    # relabel[i] = index of the party's outcome shown when the observer has outcome i
+    # relabel[i] = index of the lab's outcome shown when the observer has outcome i
     relabel: tuple[int, ...]
+    settings: tuple[str, ...] = ()  # the observer's own choices (a setting variable NAME.setting)
+    party: str = ""  # the party whose lab holds the chain of labs (== lab unless nested)
 
 
 @dataclass(frozen=True)
@@ -94,6 +115,24 @@ class Scenario:
                 return o
         raise KeyError(name)
 
+    @property
+    def labs(self) -> tuple[Party, ...]:
+        """The parties proper (without the choice parties of observers with choices)."""
+        return tuple(p for p in self.parties if p.choice_of is None)
+
+    @property
+    def nested(self) -> bool:
+        """Does any observer sit inside another's lab, or choose a setting of its own?"""
+        return any(o.lab != o.party or o.settings for o in self.inner)
+
+    def read_out_when(self, o: InnerObserver) -> tuple[tuple[int, str], ...] | None:
+        """When *o* is read out: (settings-tuple index, setting) pairs; () = every run; None = never."""
+        if o.read_out_at is None:
+            return None
+        if o.read_out_at == ALWAYS and not (o.lab in self.party_names and self.party(o.lab).choice_of is None):
+            return ()
+        return ((self.party_index(o.lab), o.read_out_at),)
+
     def setting_tuples(self) -> list[tuple[str, ...]]:
         self._guard_size()
         return list(itertools.product(*(p.settings for p in self.parties)))
@@ -114,28 +153,37 @@ class Scenario:
 
     # -- event variables -------------------------------------------------
     def party_events(self) -> list[EventVar]:
-        return [EventVar(p.name, "party", p.outcomes, p.name) for p in self.parties]
+        """One event per party; a choice party's constant outcome is named ``NAME.choice``."""
+        return [EventVar(p.name if p.choice_of is None else f"{p.name}.choice", "party", p.outcomes, p.name)
+                for p in self.parties]
 
     def inner_events(self) -> list[EventVar]:
-        return [EventVar(o.name, "inner", o.outcomes, o.lab) for o in self.inner]
+        return [EventVar(o.name, "inner", o.outcomes, o.party or o.lab) for o in self.inner]
 
     def latent_events(self, party: str) -> list[EventVar]:
         p = self.party(party)
         return [EventVar(f"{p.name}@{x}", "latent", p.outcomes, p.name, x) for x in p.settings]
 
     def all_event_names(self) -> list[str]:
-        names = [e.name for e in self.party_events() + self.inner_events()]
-        for p in self.parties:
+        names = [e.name for e in self.party_events() if self.party(e.party).choice_of is None]
+        names += [e.name for e in self.inner_events()]
+        for p in self.labs:
             names += [e.name for e in self.latent_events(p.name)]
         return names
 
     def describe(self) -> str:
         lines = []
-        for p in self.parties:
+        for p in self.labs:
             lines.append(f"party {p.name}: settings {list(p.settings)}, outcomes {list(p.outcomes)}")
         for o in self.inner:
-            ro = f", read out at {o.lab}'s setting {o.read_out_at}" if o.read_out_at is not None else ""
-            lines.append(f"inner observer {o.name} in lab {o.lab}: outcomes {list(o.outcomes)}{ro}")
+            if o.read_out_at == ALWAYS and self.read_out_when(o) == ():
+                ro = f", read out by {o.lab} in every run"
+            else:
+                ro = f", read out at {o.lab}'s setting {o.read_out_at}" if o.read_out_at is not None else ""
+            where = f"lab {o.lab}" if o.lab == o.party else f"the lab of {o.lab} (inside {o.party}'s lab)"
+            own = (f", chooses among settings {list(o.settings)} (setting variable {o.name}.setting)"
+                   if o.settings else "")
+            lines.append(f"inner observer {o.name} in {where}: outcomes {list(o.outcomes)}{own}{ro}")
         return "\n".join(lines)
 
 
@@ -179,7 +227,7 @@ def _relabel_map(raw, where: Where) -> dict[str, str]:
 
 
 _PARTY_KEYS = {"settings", "outcomes", "says"}
-_INNER_KEYS = {"lab", "outcomes", "read_out_at", "relabel", "says"}
+_INNER_KEYS = {"lab", "outcomes", "read_out_at", "relabel", "says", "settings"}
 
 
 def check_keys(m, allowed: set[str], path: str) -> None:
@@ -219,8 +267,14 @@ def check_name(name, where: Where, what: str, dash: bool = True) -> str:
     return name
 
 
+# -- reading the ``scenario:`` mapping, stage by stage -------------------------------
 def scenario_from_yaml(raw, file: str | None = None) -> Scenario:
-    """Build a :class:`Scenario` from the ``scenario:`` mapping of a theory file."""
+    """Build a :class:`Scenario` from the ``scenario:`` mapping of a theory file.
+
+    Stages: the parties; the inner observers' lab chains (unknown labs and
+    cycles refused); each observer in chain order (outcomes, own choices,
+    read-out rule); one observer per read-out setting; the choice parties.
+    """
     from .yamlread import YMap
 
     if not isinstance(raw, dict):
@@ -230,28 +284,46 @@ def scenario_from_yaml(raw, file: str | None = None) -> Scenario:
     if not isinstance(parties_raw, dict) or len(parties_raw) < 2:
         w = raw.where("parties", "scenario.parties") if isinstance(raw, YMap) else Where(file)
         raise InputError("a scenario needs a mapping 'parties' with at least two parties", w)
-    parties = []
-    for name, spec in parties_raw.items():
-        path = f"scenario.parties.{name}"
-        w = parties_raw.where(name, path)
-        check_name(name, w, "party", dash=False)
-        if not isinstance(spec, dict):
-            raise InputError("a party needs 'settings' and 'outcomes'", w)
-        check_keys(spec, _PARTY_KEYS, path)
-        for k in ("settings", "outcomes"):
-            if k not in spec:
-                raise InputError(f"party '{name}' has no '{k}'", w)
-        settings = _labels(spec["settings"], spec.where("settings", f"{path}.settings"), "settings")
-        outcomes = _labels(spec["outcomes"], spec.where("outcomes", f"{path}.outcomes"), "outcomes")
-        if len(outcomes) < 2:
-            raise InputError("a party needs at least two outcomes", spec.where("outcomes", f"{path}.outcomes"))
-        pname = check_name(name, w, "party", dash=False)
-        parties.append(Party(pname, settings, outcomes, _numeric(outcomes)))
-    names = [p.name for p in parties]
-    inner = []
+    parties = [_read_party(name, spec, parties_raw) for name, spec in parties_raw.items()]
     inner_raw = raw.get("inner_observers") or {}
     if not isinstance(inner_raw, dict):
         raise InputError("'inner_observers' must be a mapping", raw.where("inner_observers", "scenario.inner_observers"))
+    order = _chain_order(inner_raw, parties_raw, [p.name for p in parties])
+    by_name: dict[str, InnerObserver] = {}
+    for name in order:
+        by_name[name] = _read_observer(name, inner_raw[name], inner_raw, parties, by_name)
+    inner = [by_name[str(n)] for n in inner_raw]  # declaration order
+    _one_reader_per_setting(inner, inner_raw)
+    choices = [Party(o.name, o.settings, (CHOICE_OUTCOME,), None, o.name) for o in inner if o.settings]
+    return Scenario(tuple(parties) + tuple(choices), tuple(inner), str(raw.get("name", "")))
+
+
+def _read_party(name, spec, parties_raw) -> Party:
+    path = f"scenario.parties.{name}"
+    w = parties_raw.where(name, path)
+    pname = check_name(name, w, "party", dash=False)
+    if not isinstance(spec, dict):
+        raise InputError("a party needs 'settings' and 'outcomes'", w)
+    check_keys(spec, _PARTY_KEYS, path)
+    for k in ("settings", "outcomes"):
+        if k not in spec:
+            raise InputError(f"party '{name}' has no '{k}'", w)
+    settings = _labels(spec["settings"], spec.where("settings", f"{path}.settings"), "settings")
+    outcomes = _labels(spec["outcomes"], spec.where("outcomes", f"{path}.outcomes"), "outcomes")
+    if len(outcomes) < 2:
+        raise InputError("a party needs at least two outcomes", spec.where("outcomes", f"{path}.outcomes"))
+    return Party(pname, settings, outcomes, _numeric(outcomes))
+
+
+def _chain_order(inner_raw, parties_raw, party_names: list[str]) -> list[str]:
+    """The observers in an order where every lab comes before the observers inside it.
+
+    Refuses a lab that names neither a party nor an inner observer, and labs
+    that sit inside each other (a cycle), each with its file and line.
+    """
+    from .yamlread import YMap
+
+    labs: dict[str, str] = {}
     for name, spec in inner_raw.items():
         path = f"scenario.inner_observers.{name}"
         w = inner_raw.where(name, path)
@@ -259,62 +331,112 @@ def scenario_from_yaml(raw, file: str | None = None) -> Scenario:
             raise InputError("an inner observer needs 'lab' and 'outcomes'", w)
         check_name(name, w, "inner observer")
         check_keys(spec, _INNER_KEYS, path)
-        if str(name) in names:
+        if str(name) in party_names:
             line = parties_raw.where(name).line if isinstance(parties_raw, YMap) else None
             raise InputError(f"'{name}' names both the party (line {line}) and this inner observer", w,
                              "parties, inner observers and hidden variables need names of their own")
         lab = spec.get("lab")
         if lab is None:
-            raise InputError(f"inner observer '{name}' has no 'lab'", w, "name the party whose lab it sits in")
-        if str(lab) not in names:
-            raise InputError(f"no party named '{lab}'", spec.where("lab", f"{path}.lab"), suggest(str(lab), names))
-        party = parties[names.index(str(lab))]
-        outs = _labels(spec.get("outcomes", list(party.outcomes)),
-                       spec.where("outcomes", f"{path}.outcomes"), "outcomes")
-        ro = spec.get("read_out_at")
-        if ro is not None:
-            ro = str(ro)
-            if ro not in party.settings:
-                raise InputError(f"party '{lab}' has no setting '{ro}'", spec.where("read_out_at", f"{path}.read_out_at"),
-                                 suggest(ro, party.settings))
-        relabel_raw = spec.get("relabel")
-        if relabel_raw is None:
-            if ro is not None and (len(outs) != len(party.outcomes) or set(outs) != set(party.outcomes)):
-                raise InputError(
-                    f"read-out needs a 'relabel' map: '{name}' has outcomes {', '.join(outs)}, "
-                    f"'{lab}' has {', '.join(party.outcomes)}", w,
-                    "say which party outcome each observer outcome shows, e.g. relabel: {0: +1, 1: -1}")
-            # the same labels: matched by label, never by position
-            relabel = tuple(party.outcomes.index(o) if o in party.outcomes else i for i, o in enumerate(outs))
-        else:
-            rw = spec.where("relabel", f"{path}.relabel")
-            if not isinstance(relabel_raw, dict):
-                raise InputError("'relabel' maps each observer outcome to the party outcome it shows", rw)
-            m = _relabel_map(relabel_raw, rw)
-            rel = []
-            for o in outs:
-                if o not in m:
-                    raise InputError(f"'relabel' says nothing of outcome '{o}'", rw)
-                if m[o] not in party.outcomes:
-                    raise InputError(f"'relabel' sends '{o}' to '{m[o]}', not an outcome of '{lab}'", rw,
-                                     suggest(m[o], party.outcomes))
-                rel.append(party.outcomes.index(m[o]))
-            extra = set(m) - set(outs)
-            if extra:
-                raise InputError(f"'relabel' names outcomes the observer does not have: {sorted(extra)}", rw)
-            relabel = tuple(rel)
-        inner.append(InnerObserver(str(name), str(lab), outs, ro, relabel))
-    # Two observers read out at the same setting of the same lab would force
-    # contradictory (or redundant) equalities; refuse rather than guess.
-    seen: dict[tuple[str, str], str] = {}
+            raise InputError(f"inner observer '{name}' has no 'lab'", w,
+                             "name the party (or the inner observer) whose lab it sits in")
+        if str(lab) not in party_names and str(lab) not in inner_raw:
+            raise InputError(f"no party or inner observer named '{lab}'", spec.where("lab", f"{path}.lab"),
+                             suggest(str(lab), party_names + [str(n) for n in inner_raw]))
+        labs[str(name)] = str(lab)
+    order: list[str] = []
+    for start in labs:
+        chain = [start]
+        while chain[-1] in labs and chain[-1] not in order:
+            nxt = labs[chain[-1]]
+            if nxt in chain:
+                loop = chain[chain.index(nxt):] + [nxt]
+                spec = inner_raw[start]
+                raise InputError("inner observers sit inside each other's labs: " + " -> ".join(loop),
+                                 spec.where("lab", f"scenario.inner_observers.{start}.lab"),
+                                 "a chain of labs ends at a party: write 'lab: PARTY' for the outermost observer")
+            chain.append(nxt)
+        for n in reversed(chain):
+            if n in labs and n not in order:
+                order.append(n)
+    return order
+
+
+def _read_observer(name, spec, inner_raw, parties: list[Party], done: dict[str, InnerObserver]) -> InnerObserver:
+    """One inner observer, once its lab (a party or an observer read before it) is known."""
+    path = f"scenario.inner_observers.{name}"
+    w = inner_raw.where(name, path)
+    lab = str(spec["lab"])
+    outer = done.get(lab)
+    if outer is None:
+        party = next(p for p in parties if p.name == lab)
+        lab_outcomes, lab_settings, top = party.outcomes, party.settings, lab
+    else:
+        lab_outcomes, lab_settings, top = outer.outcomes, outer.settings, outer.party
+    outs = _labels(spec.get("outcomes", list(lab_outcomes)), spec.where("outcomes", f"{path}.outcomes"), "outcomes")
+    own = ()
+    if "settings" in spec:
+        own = _labels(spec["settings"], spec.where("settings", f"{path}.settings"), "settings")
+        if ALWAYS in own:
+            raise InputError(f"'{ALWAYS}' cannot be a setting label", spec.where("settings", f"{path}.settings"),
+                             "it is the word for a read-out in every run")
+    ro = spec.get("read_out_at")
+    if ro is not None:
+        ro = str(ro)
+        rw = spec.where("read_out_at", f"{path}.read_out_at")
+        if ro == ALWAYS and outer is None:
+            raise InputError(f"a party's outcome is read out at one of its settings, not '{ALWAYS}'", rw,
+                             suggest(ro, lab_settings) or f"one of {list(lab_settings)}")
+        if ro != ALWAYS and ro not in lab_settings:
+            what = "party" if outer is None else "inner observer"
+            hint = (suggest(ro, lab_settings) or f"one of {list(lab_settings)}") if lab_settings else (
+                f"'{lab}' chooses no setting: write read_out_at: {ALWAYS}, or give '{lab}' settings of its own")
+            raise InputError(f"{what} '{lab}' has no setting '{ro}'", rw, hint)
+    relabel = _relabel(name, spec, path, w, outs, lab, lab_outcomes, ro)
+    return InnerObserver(str(name), lab, outs, ro, relabel, own, top)
+
+
+def _relabel(name, spec, path, w, outs, lab, lab_outcomes, ro) -> tuple[int, ...]:
+    """``relabel[i]``: index of the lab's outcome shown when the observer has outcome i."""
+    relabel_raw = spec.get("relabel")
+    if relabel_raw is None:
+        if ro is not None and (len(outs) != len(lab_outcomes) or set(outs) != set(lab_outcomes)):
+            raise InputError(
+                f"read-out needs a 'relabel' map: '{name}' has outcomes {', '.join(outs)}, "
+                f"'{lab}' has {', '.join(lab_outcomes)}", w,
+                "say which outcome of the lab each observer outcome shows, e.g. relabel: {0: +1, 1: -1}")
+        # the same labels: matched by label, never by position
+        return tuple(lab_outcomes.index(o) if o in lab_outcomes else i for i, o in enumerate(outs))
+    rw = spec.where("relabel", f"{path}.relabel")
+    if not isinstance(relabel_raw, dict):
+        raise InputError("'relabel' maps each observer outcome to the lab's outcome it shows", rw)
+    m = _relabel_map(relabel_raw, rw)
+    rel = []
+    for o in outs:
+        if o not in m:
+            raise InputError(f"'relabel' says nothing of outcome '{o}'", rw)
+        if m[o] not in lab_outcomes:
+            raise InputError(f"'relabel' sends '{o}' to '{m[o]}', not an outcome of '{lab}'", rw,
+                             suggest(m[o], lab_outcomes))
+        rel.append(lab_outcomes.index(m[o]))
+    extra = set(m) - set(outs)
+    if extra:
+        raise InputError(f"'relabel' names outcomes the observer does not have: {sorted(extra)}", rw)
+    return tuple(rel)
+
+
+def _one_reader_per_setting(inner: list[InnerObserver], inner_raw) -> None:
+    """Two observers read out at the same setting of the same lab would force contradictory
+    (or redundant) equalities; refuse rather than guess (``always`` clashes with everything)."""
+    seen: dict[str, list[tuple[str, str]]] = {}
     for o in inner:
         if o.read_out_at is None:
             continue
-        key = (o.lab, o.read_out_at)
-        if key in seen:
-            raise InputError(
-                f"inner observers '{seen[key]}' and '{o.name}' are both read out at setting {o.read_out_at} of '{o.lab}'",
-                inner_raw.where(o.name, f"scenario.inner_observers.{o.name}.read_out_at"),
-                "a party's outcome can follow only one observer at a given setting")
-        seen[key] = o.name
-    return Scenario(tuple(parties), tuple(inner), str(raw.get("name", "")))
+        for other, at in seen.get(o.lab, []):
+            if at == o.read_out_at or ALWAYS in (at, o.read_out_at):
+                raise InputError(
+                    f"inner observers '{other}' and '{o.name}' are both read out at setting {o.read_out_at} of '{o.lab}'"
+                    if at == o.read_out_at != ALWAYS else
+                    f"'{other}' and '{o.name}' are both read out by '{o.lab}', and one of them in every run",
+                    inner_raw.where(o.name, f"scenario.inner_observers.{o.name}.read_out_at"),
+                    "an outcome can follow only one observer at a given setting")
+        seen.setdefault(o.lab, []).append((o.name, o.read_out_at))

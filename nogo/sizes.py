@@ -113,7 +113,7 @@ def _lab_count(scenario, party, x: str, absolute: set[str], counterfactual: set[
 def _event_outcomes(scenario, name: str) -> int:
     if "@" in name:
         return len(scenario.party(name.split("@", 1)[0]).outcomes)
-    for p in scenario.parties:
+    for p in scenario.labs:  # a choice party shares its observer's name
         if p.name == name:
             return len(p.outcomes)
     for o in scenario.inner:
@@ -130,6 +130,10 @@ def estimate_linear(scenario, assumptions) -> SizeEstimate:
     per_lab = [sum(_lab_count(scenario, p, x, absolute, counterfactual) for x in p.settings)
                for p in scenario.parties]
     columns = math.prod(per_lab)
+    if scenario.nested:  # chains of nested observers, observers' choices: counted exactly (nogo.events)
+        from .events import column_count, present_events  # noqa: PLC0415
+
+        columns = column_count(scenario, present_events(scenario, assumptions))
     n_settings = math.prod(len(p.settings) for p in scenario.parties)
     coordinates = math.prod(len(p.settings) * len(p.outcomes) for p in scenario.parties)
     present = set(scenario.party_names) | absolute

@@ -8,6 +8,13 @@ the question "is there a point with left side > bound?" handed to z3, whose
 simplex works in exact rationals (L. de Moura and N. Bjørner, "Z3: an
 efficient SMT solver", TACAS 2008).  Used in the tests to cross-check the LP
 route; it is slower and meant for small scenarios.
+
+Support-only clauses (``reading: supports``, possibilistic local agency) are
+not convex: they are refused unless the bundle's probabilistic clauses imply
+them (:func:`nogo.supports.refuse_support_only`), and then dropped as
+redundant — never read as equal marginals.  Read-out chains of nested
+observers are walked here afresh (:func:`_chain`), not taken from
+:mod:`nogo.events`.
 """
 
 from __future__ import annotations
@@ -17,7 +24,9 @@ import itertools
 import z3
 
 from .inequality import Inequality
-from .theory import Absolute, Counterfactual, Factorise, Hidden, Independent, Predetermined, Theory
+from .supports import refuse_support_only
+from .theory import (Absolute, Counterfactual, Factorise, Hidden, Independent, Predetermined, SupportIndependent,
+                     Theory)
 
 
 def implies_z3(theory: Theory, spec: str | list[str], ineq: Inequality, timeout_ms: int = 120_000) -> bool:
@@ -34,11 +43,12 @@ def implies_z3(theory: Theory, spec: str | list[str], ineq: Inequality, timeout_
             if isinstance(c, Counterfactual):
                 counterfactual.update(c.parties)
     # (name, outcomes, kind, extra)
-    ev = [(p.name, p.outcomes, "party", None) for p in sc.parties]
-    ev += [(o.name, o.outcomes, "inner", o) for o in sc.inner if o.name in absolute]
+    ev = [(p.name if p.choice_of is None else f"{p.name}.choice", p.outcomes, "party", None) for p in sc.parties]
+    ev += [(o.name, o.outcomes, "inner", _chain(sc, o, absolute)) for o in sc.inner if o.name in absolute]
     ev += [(f"{p.name}@{x}", p.outcomes, "latent", (p.name, x)) for p in sc.parties if p.name in counterfactual
            for x in p.settings]
     names = [e[0] for e in ev]
+    refuse_support_only(theory, assumptions, names)  # InputError unless the probabilistic clauses imply them
     solver = z3.Solver()
     solver.set("timeout", timeout_ms)
     q = {}
@@ -51,11 +61,10 @@ def implies_z3(theory: Theory, spec: str | list[str], ineq: Inequality, timeout_
             total.append(v)
             broken = False
             for k, (name, outs, kind, extra) in enumerate(ev):
-                if kind == "inner" and extra.read_out_at is not None:
-                    pi = sc.party_names.index(extra.lab)
-                    if s[pi] == extra.read_out_at:
-                        shown = sc.parties[pi].outcomes[extra.relabel[extra.outcomes.index(e[k])]]
-                        broken |= e[pi] != shown
+                if kind == "inner" and extra is not None:
+                    lab, when, shown = extra
+                    if all(s[i] == x for i, x in when):
+                        broken |= e[names.index(lab)] != shown[e[k]]
                 if kind == "latent":
                     pi = sc.party_names.index(extra[0])
                     broken |= s[pi] == extra[1] and e[pi] != e[k]
@@ -64,8 +73,8 @@ def implies_z3(theory: Theory, spec: str | list[str], ineq: Inequality, timeout_
         solver.add(z3.Sum(total) == 1)
     for a in assumptions:
         for c in a.clauses:
-            if not isinstance(c, Independent):
-                continue
+            if not isinstance(c, Independent) or isinstance(c, SupportIndependent):
+                continue  # a support-only clause got here only when the others imply it
             kept = [names.index(n) for n in c.events if n in names]
             if not kept:
                 continue
@@ -88,3 +97,28 @@ def implies_z3(theory: Theory, spec: str | list[str], ineq: Inequality, timeout_
     if res == z3.unknown:
         raise TimeoutError("z3 gave no answer in time")
     return res == z3.unsat
+
+
+def _chain(sc, o, absolute) -> tuple | None:
+    """(event shown, [(settings index, setting)], own outcome -> shown outcome) for a present observer.
+
+    Walks the labs holding *o* until a present one (a party, or an observer
+    declared absolute); every link's read-out setting joins the condition
+    (``always`` inside an observer without choices adds none).  None: the
+    chain meets an observer that reads nothing out.
+    """
+    names = list(sc.party_names)
+    inner = {x.name: x for x in sc.inner}
+    shown = {v: v for v in o.outcomes}
+    when = []
+    cur = o
+    while cur.read_out_at is not None:
+        outer = inner.get(cur.lab)
+        outs = outer.outcomes if outer is not None else sc.parties[names.index(cur.lab)].outcomes
+        shown = {k: outs[cur.relabel[cur.outcomes.index(v)]] for k, v in shown.items()}
+        if not (outer is not None and cur.read_out_at == "always" and not outer.settings):
+            when.append((names.index(cur.lab), cur.read_out_at))
+        if outer is None or cur.lab in absolute:
+            return cur.lab, tuple(when), shown
+        cur = outer
+    return None

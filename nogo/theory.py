@@ -164,8 +164,9 @@ class _Names:
             name = str(v)
             if name.endswith("@*"):
                 party = name[:-2]
-                if party not in self.scenario.party_names:
-                    raise InputError(f"no party named '{party}' in '{name}'", w, suggest(party, self.scenario.party_names))
+                labs = [p.name for p in self.scenario.labs]
+                if party not in labs:
+                    raise InputError(f"no party named '{party}' in '{name}'", w, suggest(party, labs))
                 out += [e.name for e in self.scenario.latent_events(party)]
             elif name in self.events or (allow_hidden and name in self.hidden):
                 out.append(name)
@@ -188,6 +189,9 @@ class _Names:
                 hint = f"write '{name}.setting'" if name in self.scenario.party_names else "settings are written PARTY.setting"
                 raise InputError(f"'{name}' is not a setting", w, hint)
             if party not in self.scenario.party_names:
+                if party in {o.name for o in self.scenario.inner}:
+                    raise InputError(f"inner observer '{party}' chooses no setting of its own", w,
+                                     f"give '{party}' settings, e.g. settings: [1, 2], to make {name} a choice")
                 raise InputError(f"no party named '{party}'", w, suggest(party, self.scenario.party_names))
             out.append(party)
         return tuple(dict.fromkeys(out))
@@ -246,9 +250,10 @@ def _parse_assumption(name: str, spec, amap: YMap, names: _Names) -> Assumption:
             elif key == "counterfactual":
                 plist = item if isinstance(item, list) else [item]
                 parties = []
+                labs = [q.name for q in names.scenario.labs]
                 for p in plist:
-                    if str(p) not in names.scenario.party_names:
-                        raise InputError(f"no party named '{p}'", at(key), suggest(str(p), names.scenario.party_names))
+                    if str(p) not in labs:  # an observer's choice records no outcome of its own
+                        raise InputError(f"no party named '{p}'", at(key), suggest(str(p), labs))
                     parties.append(str(p))
                 clauses.append(Counterfactual(tuple(parties)))
             elif key == "hidden":

@@ -60,7 +60,7 @@ def test_fixed_point_three_settings_not_equal():
 def test_classification_on_members_in_reach():
     # arXiv:2407.20346 (classification from memory, see above)
     t = Template(labs=(2, 3), settings=("2", "3/2"), outcomes=(2,), friends=("each",))
-    fr = run_family(t, "lf-equals-bell", time_limit=120)
+    fr = run_family(t, "lf-equals-bell", time_limit=120, route="facets")  # the oracle route: results/families
     assert len(fr.results) == 3 + 4 + 4  # (2,2): AB, A, none; (3,2): AB, A, B, none; (2,2,2): ABC, AB, A, none
     decided = 0
     for r in fr.results:
@@ -149,3 +149,36 @@ def test_local_friendliness_equals_partly_determined():
     pd = {r.member.key: r.facets["partly-determined"] for r in fr.results}
     # two settings each: the Bell-local count (Fine 1982); no inner observers: no-signalling (positivity only)
     assert pd["2labs-s2x2-o2-friends-AB"] == 24 and pd["2labs-s2x2-o2-friends-none"] == 16
+
+
+def test_oracle_route_agrees_with_the_facet_route():
+    # two labs, two settings, friends in both: equal (Bong et al. 2020, arXiv:1907.05607), by either route
+    m = Member((2, 2), 2, (True, True))
+    by_oracle = run_job(Job(m, "lf-equals-bell", route="oracle"))
+    by_facets = run_job(Job(m, "lf-equals-bell", route="facets"))
+    assert by_oracle.answer == by_facets.answer == "equal"
+    assert by_oracle.facets == by_facets.facets == {"local-friendliness": 24, "Bell-local": 24}
+    assert "with exactly checked Farkas certificates" in by_oracle.evidence[0]
+
+
+def test_oracle_comparison_finds_a_failing_bell_facet_when_the_sets_differ():
+    # three settings each: local friendliness is strictly larger (932 vs 684 facets, Bong et al. 2020);
+    # without the witness search the oracle route must find a Bell-local facet that fails on it
+    from nogo.family import MemberResult, estimate
+    from nogo.family_oracle import equal_by_oracle
+
+    m = Member((3, 3), 2, (True, True))
+    res = MemberResult(m, "lf-equals-bell", "", estimate(m))
+    equal_by_oracle(m.theory(), res, None)
+    assert res.answer == "not equal" and res.facets == {"Bell-local": 684}
+    assert "fails on local friendliness" in res.evidence[0]
+
+
+def test_table_says_the_classification_is_from_memory():
+    from nogo.family_output import CRITERION, NOTE, markdown_table
+
+    fr = run_family(Template(labs=(2,), settings=("2",), friends=("all",)), "lf-equals-bell")
+    md = markdown_table(fr)
+    assert CRITERION in md.splitlines()[0] and "from memory" in CRITERION
+    assert "not checked against the paper" in NOTE and NOTE in md
+    assert md.splitlines()[2].rstrip(" |").endswith("equal")  # the recalled criterion agrees here

@@ -145,7 +145,8 @@ def run(args) -> int:
         for i in range(len(r.vertices)):
             print(f"  {i + 1}: {r.vertex_text(i) or 'all coordinates 0'}")
     st = r.polytope.stats
-    where = (f"read from {r.cache_file} and re-verified now with the exact checks, {r.seconds:.2f} s"
+    where = (f"read from {r.cache_file} and re-verified now with the exact checks, {r.seconds:.2f} s; "
+             "that no facet is missing rests on the derivation that stored the list (guarded by its hash)"
              if r.from_cache else f"{r.seconds:.2f} s, {st.get('oracle_calls', 0)} LP calls")
     order = f"; group of order {r.group_order} acting on the set" if r.group_order else ""
     print(f"symmetries used: {len(r.symmetries)} moves{order}" +

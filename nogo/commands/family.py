@@ -44,6 +44,10 @@ def register(sub) -> None:
     p.add_argument("--workers", type=int, default=None, help="processes (through nogo.fanout; default one)")
     p.add_argument("--reach", choices=("estimate", "all"), default="estimate",
                    help="estimate (default): skip exact hulls the size estimate puts beyond reach; all: try them")
+    p.add_argument("--route", choices=("oracle", "facets"), default="oracle",
+                   help="lf-equals-bell without a witness: oracle (default) derives the Bell-local set only and "
+                        "decides each of its facets on local friendliness by LP (one per symmetry orbit); "
+                        "facets derives both sets and compares the facet lists")
     p.add_argument("--estimate-only", action="store_true", help="print the members and their size estimates only")
     p.add_argument("--out", default=None, metavar="FOLDER",
                    help="write table.md, table.csv, results.json and plot.png into this folder")
@@ -95,10 +99,13 @@ def run(args) -> int:
         else:
             for r in rows:
                 print(f"{r['member']}: dimension {r['dimension']}, {r['bell_vertices']} deterministic strategies, "
-                      f"hull {r['hull']}; {'in reach' if r['hull_in_reach'] else 'beyond reach'}")
+                      f"hull {r['hull']}; {'in reach' if r['hull_in_reach'] else 'beyond reach'}"
+                      + ("" if r["hull_in_reach"] else "; Bell-local hull class by class (oracle route): "
+                         + ("in reach" if r["bell_hull_by_classes_in_reach"] else "beyond reach")))
         return 0
     fr = run_family(template, args.question, bundle=args.bundle, inequality=args.inequality,
-                    time_limit=args.time_limit, workers=args.workers, reach=args.reach)
+                    time_limit=args.time_limit, workers=args.workers, reach=args.reach,
+                    route=args.route)
     if args.out:
         import json
 

@@ -37,9 +37,12 @@ def run(args) -> int:
     if args.json:
         emit_json({"theory": shown_path(args.theory), "title": th.title,
                    "parties": {p.name: {"settings": list(p.settings), "outcomes": list(p.outcomes)}
-                               for p in th.scenario.parties},
-                   "inner_observers": {o.name: {"lab": o.lab, "read_out_at": o.read_out_at}
+                               for p in th.scenario.labs},
+                   "inner_observers": {o.name: {"lab": o.lab, "read_out_at": o.read_out_at,
+                                                **({"settings": list(o.settings)} if o.settings else {}),
+                                                **({"party": o.party} if o.party != o.lab else {})}
                                        for o in th.scenario.inner},
+                   **({"read_out_rules": {b: _chains(th, b) for b in th.bundles}} if th.scenario.nested else {}),
                    "assumptions": {a.name: {"says": a.says, "source": a.source} for a in th.assumptions.values()},
                    "bundles": {b: {"assumptions": list(m), **sizes[b]} for b, m in th.bundles.items()},
                    **_light_cone_json(th)})
@@ -58,7 +61,18 @@ def run(args) -> int:
         s = sizes[b]
         size = f"{s['kind']} model {s['rows']} x {s['columns']}" if "rows" in s else s["error"]
         print(f"  {b} = {' + '.join(members)}   ({size})")
+        if th.scenario.nested:  # chains of nested observers, as the compilers read them
+            print("\n".join(f"      read-out: {line}" for line in _chains(th, b)))
     return 0
+
+
+def _chains(th, bundle) -> list[str]:
+    """The read-out rules among the events a bundle brings in, chains resolved (nogo.events)."""
+    from ..events import present_events, read_out_rules, read_out_text
+
+    _, assumptions = th.resolve(bundle)
+    sc = th.scenario
+    return [read_out_text(sc, r) for r in read_out_rules(sc, present_events(sc, assumptions))]
 
 
 def _light_cone_json(th) -> dict:

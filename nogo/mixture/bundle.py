@@ -16,6 +16,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from ..errors import InputError, Where
+from ..events import read_out_rules
 from ..scenario import EventVar
 from ..theory import Absolute, Assumption, Counterfactual, Factorise, Hidden, Independent, Predetermined, Theory
 
@@ -161,17 +162,12 @@ def _groups(theory: Theory, b: _Bundle, events: list[EventVar],
     where_of = {a.name: a for a in assumptions}
     gi = {n: i for i, g in enumerate(groups) for n in g}
     sc = theory.scenario
-    for ev in events:
-        tie = None
-        if ev.kind == "inner" and sc.observer(ev.name).read_out_at is not None:
-            tie = ev.party
-        elif ev.kind == "latent":
-            tie = ev.party
-        if tie is not None and gi[ev.name] != gi[tie]:
+    for r in read_out_rules(sc, events):  # chains of read-outs resolved in nogo.events
+        if gi[r.source] != gi[r.target]:
             a = where_of[b.partitions[0][0]]
-            raise InputError(f"{ev.name} is read out as {tie}'s outcome, but '{by}' puts them in different groups; "
-                             "a read-out rule across groups forces both to be deterministic and is not a "
+            raise InputError(f"{r.source} is read out as {r.target}'s outcome, but '{by}' puts them in different "
+                             "groups; a read-out rule across groups forces both to be deterministic and is not a "
                              "product of response polytopes", _where(theory, a),
-                             f"put {ev.name} in {tie}'s group")
+                             f"put {r.source} in {r.target}'s group")
     return groups, by
 

@@ -21,7 +21,7 @@ import itertools
 from dataclasses import dataclass, field
 from fractions import Fraction
 
-from ..events import project_independence
+from ..events import project_independence, read_out_notes
 from ..model import Column, LinearModel, RowSource
 from ..scenario import EventVar, Scenario
 from ..theory import Assumption
@@ -200,9 +200,10 @@ def _notes(sc: Scenario, plan: Plan, n_columns: int) -> list[str]:
         out.append(f"{lam} may depend on the settings of {', '.join(dep)}: one set of weights per value of them "
                    f"({len(plan.classes)}), over the responses that differ at those settings ({n_columns} columns)")
     for o in sc.inner:
-        if o.name in plan.names and o.read_out_at is not None:
+        if o.name in plan.names and o.read_out_at is not None and not sc.nested:
             out.append(f"read-out (in every response): {o.lab}'s outcome equals {o.name}'s when {o.lab}'s "
                        f"setting is {o.read_out_at}")
+    out += read_out_notes(sc, list(plan.events), "read-out (in every response)")  # nested: chains resolved
     return out
 
 

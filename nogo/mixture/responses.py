@@ -25,7 +25,7 @@ from dataclasses import dataclass
 from fractions import Fraction
 from functools import lru_cache
 
-from ..events import hub_settings, read_out_ok
+from ..events import hub_settings, read_out_ok, read_out_rules
 from ..scenario import EventVar, Scenario
 from .bundle import GroupConstraint, GroupSpec, Settings
 
@@ -103,24 +103,14 @@ def _deterministic_vertices(scenario: Scenario, spec: GroupSpec, cap: int,
     names = [ev.name for ev in events]
     # read-out couplings: (later var, earlier var, allowed pairs (later value, earlier value))
     checks: dict[int, dict[int, set]] = {}
+    outs = {ev.name: ev.outcomes for ev in events}
+    rules = read_out_rules(scenario, list(events))  # chains resolved in nogo.events
     for s in settings:
-        for ev in events:
-            if ev.kind == "inner":
-                o = scenario.observer(ev.name)
-                pi = scenario.party_index(o.lab)
-                if o.read_out_at is None or s[pi] != o.read_out_at:
-                    continue
-                party = scenario.parties[pi]
-                allowed = {(party.outcomes[o.relabel[k]], v) for k, v in enumerate(o.outcomes)}
-                u, w = var_index[(o.lab, key(o.lab, s))], var_index[(ev.name, key(ev.name, s))]
-            elif ev.kind == "latent":
-                pi = scenario.party_index(ev.party)
-                if s[pi] != ev.setting:
-                    continue
-                allowed = {(v, v) for v in ev.outcomes}
-                u, w = var_index[(ev.party, key(ev.party, s))], var_index[(ev.name, key(ev.name, s))]
-            else:
+        for r in rules:
+            if not r.active(s):
                 continue
+            allowed = {(outs[r.target][r.shown[k]], v) for k, v in enumerate(outs[r.source])}
+            u, w = var_index[(r.target, key(r.target, s))], var_index[(r.source, key(r.source, s))]
             if u == w:
                 continue
             # store on the later variable; pairs oriented (later, earlier)

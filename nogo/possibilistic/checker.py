@@ -49,11 +49,12 @@ class _World:
                     absolute.update(c.events)
                 elif isinstance(c, Counterfactual):
                     cf.update(c.parties)
-        # (name, outcomes, rule) with rule = None | ("inner", lab, read_out_at, relabel, own outcomes)
-        ev: list[tuple[str, tuple[str, ...], Any]] = [(p.name, p.outcomes, None) for p in sc.parties]
+        # (name, outcomes, rule) with rule = None | ("inner", shown event, [(setting index, setting)], own -> shown)
+        ev: list[tuple[str, tuple[str, ...], Any]] = [
+            (p.name if p.choice_of is None else f"{p.name}.choice", p.outcomes, None) for p in sc.parties]
         for o in sc.inner:
             if o.name in absolute:
-                ev.append((o.name, o.outcomes, ("inner", o.lab, o.read_out_at, o.relabel, o.outcomes)))
+                ev.append((o.name, o.outcomes, _chain(sc, o, absolute)))
         for p in sc.parties:
             if p.name in cf:
                 for x in p.settings:
@@ -69,12 +70,9 @@ class _World:
             if rule is None:
                 continue
             if rule[0] == "inner":
-                _, lab, ro, relabel, own = rule
-                pi = self.parties.index(lab)
-                if ro is not None and s[pi] == ro:
-                    shown = self.sc.parties[pi].outcomes[relabel[own.index(val)]]
-                    if e[pos[lab]] != shown:
-                        return False
+                _, lab, when, shown = rule
+                if all(s[i] == x for i, x in when) and e[pos[lab]] != shown[val]:
+                    return False
             else:
                 _, party, x = rule
                 if s[self.parties.index(party)] == x and e[pos[party]] != val:
@@ -97,15 +95,17 @@ class _World:
             if v not in outs:
                 return None
             key, val = k, v
-            if rule is not None and rule[0] == "inner":
-                _, lab, ro, relabel, own = rule
-                pi = self.parties.index(lab)
-                if ro is not None and s[pi] == ro:
-                    key, val = lab, self.sc.parties[pi].outcomes[relabel[own.index(v)]]
-            elif rule is not None:
-                _, party, x = rule
-                if s[self.parties.index(party)] == x:
+            while rule is not None:  # up the chain of read-outs active at s, to a free variable
+                if rule[0] == "inner":
+                    if not all(s[i] == x for i, x in rule[2]):
+                        break
+                    key, val = rule[1], rule[3][val]
+                else:
+                    _, party, x = rule
+                    if s[self.parties.index(party)] != x:
+                        break
                     key = party
+                rule = self.events[self.names.index(key)][2]
             if out.get(key, val) != val:
                 return None
             out[key] = val
@@ -322,3 +322,27 @@ def check_model(theory: Theory, spec, pattern: SupportPattern, support: dict) ->
                     problems.append(f"'{a.name}': the support of {[w.names[i] for i in idx]} differs between "
                                     f"{s} and {t} (e.g. {diff})")
     return problems
+
+
+def _chain(sc, o, absolute) -> tuple | None:
+    """The checker's own reading of a read-out chain (written apart from nogo.events on purpose).
+
+    Walk from *o* to the labs that hold it until one is present (a party, or
+    an observer declared absolute): the outcome shown there, and the
+    settings at which every link of the chain reads its observer out.
+    """
+    names = list(sc.party_names)
+    inner = {x.name: x for x in sc.inner}
+    shown = {v: v for v in o.outcomes}
+    when: list[tuple[int, str]] = []
+    cur = o
+    while cur.read_out_at is not None:
+        outer = inner.get(cur.lab)
+        lab_outs = outer.outcomes if outer is not None else sc.parties[names.index(cur.lab)].outcomes
+        shown = {k: lab_outs[cur.relabel[cur.outcomes.index(v)]] for k, v in shown.items()}
+        if not (cur.read_out_at == "always" and outer is not None and not outer.settings):
+            when.append((names.index(cur.lab), cur.read_out_at))
+        if outer is None or cur.lab in absolute:
+            return ("inner", cur.lab, tuple(when), shown)
+        cur = outer
+    return None

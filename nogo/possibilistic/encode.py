@@ -181,36 +181,36 @@ def joint_at(sc: Scenario, events, s) -> list[tuple[str, ...]]:
     """The joint assignments at s that obey the read-out rules (product order of the free events).
 
     Only the events a read-out rule leaves free are enumerated; the tied ones
-    (an inner record or counterfactual outcome read out at s) are filled in.
+    (an inner record or counterfactual outcome read out at s, through chains
+    of nested observers: :func:`nogo.events.read_out_rules`) are filled in,
+    each from the event it is read out as (one preimage per value; several
+    when a relabelling merges outcomes).
     """
+    from ..events import read_out_rules  # noqa: PLC0415 - nogo.compile re-exports it; imported here for clarity
+
     pos = {ev.name: i for i, ev in enumerate(events)}
-    tied: dict[int, tuple[int, dict]] = {}  # event index -> (party event index, party outcome -> own value)
-    for i, ev in enumerate(events):
-        if ev.kind == "inner":
-            o = sc.observer(ev.name)
-            pi = sc.party_index(o.lab)
-            if o.read_out_at is not None and s[pi] == o.read_out_at:
-                party = sc.parties[pi]
-                tied[i] = (pos[o.lab], {party.outcomes[o.relabel[k]]: v for k, v in enumerate(o.outcomes)})
-        elif ev.kind == "latent":
-            pi = sc.party_index(ev.party)
-            if s[pi] == ev.setting:
-                tied[i] = (pos[ev.party], {v: v for v in ev.outcomes})
+    tied: dict[int, tuple[int, dict]] = {}  # source index -> (target index, target value -> source values)
+    for r in read_out_rules(sc, list(events)):
+        if r.active(s):
+            src, tgt = events[pos[r.source]], events[pos[r.target]]
+            pre: dict[str, list[str]] = {}
+            for k, v in enumerate(src.outcomes):
+                pre.setdefault(tgt.outcomes[r.shown[k]], []).append(v)
+            tied[pos[r.source]] = (pos[r.target], pre)
+    order: list[int] = []  # tied events after the events they are read out as (chains)
+    while len(order) < len(tied):
+        order += [i for i, (t, _) in tied.items() if i not in order and (t not in tied or t in order)]
     free = [i for i in range(len(events)) if i not in tied]
     out = []
     for vals in itertools.product(*(events[i].outcomes for i in free)):
-        e: list = [None] * len(events)
-        for i, v in zip(free, vals):
-            e[i] = v
-        good = True
-        for i, (src, m) in tied.items():
-            v = m.get(e[src])
-            if v is None:
-                good = False
-                break
-            e[i] = v
-        if good:
-            out.append(tuple(e))
+        partial = [[None] * len(events)]
+        for row in partial:
+            for i, v in zip(free, vals):
+                row[i] = v
+        for i in order:
+            t, pre = tied[i]
+            partial = [row[:i] + [v] + row[i + 1:] for row in partial for v in pre.get(row[t], [])]
+        out += [tuple(row) for row in partial]
     return out
 
 

@@ -20,6 +20,7 @@ import itertools
 from dataclasses import dataclass
 
 from ..compile import present_events
+from ..events import read_out_rules
 from ..theory import Theory
 from .support import SupportPattern
 
@@ -45,12 +46,12 @@ def settings_layers(theory: Theory, spec, pattern: SupportPattern, limit: int | 
     _, assumptions = theory.resolve(spec)
     events = present_events(sc, assumptions)
     per: dict = {}
+    rules = read_out_rules(sc, events)  # chains of nested observers resolved
     for s in sc.setting_tuples():
         free = 1
+        tied = {r.source for r in rules if r.active(s)}
         for ev in events:
-            tied = (ev.kind == "latent" and s[sc.party_index(ev.party)] == ev.setting) or (
-                ev.kind == "inner" and s[sc.party_index(sc.observer(ev.name).lab)] == sc.observer(ev.name).read_out_at)
-            free *= 1 if tied else len(ev.outcomes)
+            free *= 1 if ev.name in tied else len(ev.outcomes)
         per[s] = free
     size = sum(per.values())
     whole = [(Layer("", True, size), None)]

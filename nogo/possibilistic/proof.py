@@ -95,16 +95,15 @@ class Proof:
 
 
 def _read_out_notes(space: SupportSpace) -> list[str]:
+    from ..events import read_out_rules  # noqa: PLC0415
+
     sc = space.scenario
     out = []
-    for ev in space.events:
-        if ev.kind == "inner":
-            o = sc.observer(ev.name)
-            if o.read_out_at is not None:
-                rel = "" if o.relabel == tuple(range(len(o.outcomes))) else " (relabelled)"
-                out.append(f"{o.lab} = {o.name}{rel} when {o.lab}'s setting is {o.read_out_at}")
-        elif ev.kind == "latent":
-            out.append(f"{ev.party} = {ev.name} when {ev.party}'s setting is {ev.setting}")
+    for r in read_out_rules(sc, list(space.events)):
+        rel = "" if r.shown == tuple(range(len(r.shown))) else " (relabelled)"
+        when = " and ".join(f"{sc.parties[k].name}'s setting is {x}" for k, x in r.when)
+        via = f" (through {', '.join(r.via)})" if r.via else ""
+        out.append(f"{r.target} = {r.source}{rel} " + (f"when {when}" if when else "in every run") + via)
     return out
 
 

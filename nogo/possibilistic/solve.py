@@ -99,6 +99,8 @@ def space_symmetries(space: SupportSpace, theory) -> list:
     from .symmetry import pattern_symmetries  # noqa: PLC0415
 
     sc = space.scenario
+    if sc.nested:
+        return []  # nested observers and observers' choices: no symmetry search (correct, only slower)
     pn = sc.party_names
     gens = pattern_symmetries(sc, space.pattern, uniform=True)
     names = set(space.names)

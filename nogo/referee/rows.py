@@ -46,6 +46,8 @@ def _present(scenario, assumptions) -> list[tuple[str, str, object]]:
     """(name, kind, info) of the present events in the order parties, inner observers, latent outcomes."""
     from ..theory import Absolute, Counterfactual, Factorise, Hidden, Independent, Predetermined
 
+    if getattr(scenario, "nested", False):  # chains of read-outs, observers' choices: not rebuilt here
+        raise NotRebuilt("nested observers and observers' own choices are not rebuilt by this checker")
     absolute, cf = set(), set()
     for a in assumptions:
         for c in a.clauses:
