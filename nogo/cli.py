@@ -48,6 +48,20 @@ def _set_sigint(handler) -> None:
         pass
 
 
+def _interrupted_status(program: bool) -> int:
+    """130 after Ctrl-C.  As a program, leave at once with status 130: once a KeyboardInterrupt has
+    passed through a library's embedded code run, CPython would otherwise end the process by SIGINT
+    whatever status we return (seen as -2 by a parent that reads it)."""
+    if program:  # pragma: no cover - exercised in a subprocess
+        for stream in (sys.stdout, sys.stderr):
+            try:
+                stream.flush()
+            except (OSError, ValueError):
+                pass
+        os._exit(130)
+    return 130
+
+
 def _started_as_program() -> bool:
     arg0 = os.path.basename(sys.argv[0] if sys.argv else "")
     return arg0 in ("nogo", "nogo.exe", "nogo-script.py") or (
@@ -139,7 +153,7 @@ def main(argv: list[str] | None = None) -> int:
         if program:
             _set_sigint(_quiet_exit)  # a second Ctrl-C while we stop is just as quiet
         print("nogo: interrupted", file=sys.stderr)
-        return 130
+        return _interrupted_status(program)
     except RecursionError:
         print("nogo: error: the input is nested too deeply to process", file=sys.stderr)
         return 2
@@ -150,7 +164,7 @@ def main(argv: list[str] | None = None) -> int:
     except Exception as exc:  # noqa: BLE001 - a user sees one line, developers set NOGO_DEBUG
         if _interrupted:  # the interrupt came through a library that replaced it with another error
             print("nogo: interrupted", file=sys.stderr)
-            return 130
+            return _interrupted_status(program)
         if os.environ.get("NOGO_DEBUG"):
             raise
         print(f"nogo: internal error: {type(exc).__name__}: {exc} (set NOGO_DEBUG=1 for details)", file=sys.stderr)
