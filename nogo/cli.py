@@ -48,18 +48,19 @@ def _set_sigint(handler) -> None:
         pass
 
 
-def _interrupted_status(program: bool) -> int:
-    """130 after Ctrl-C.  As a program, leave at once with status 130: once a KeyboardInterrupt has
-    passed through a library's embedded code run, CPython would otherwise end the process by SIGINT
-    whatever status we return (seen as -2 by a parent that reads it)."""
-    if program:  # pragma: no cover - exercised in a subprocess
-        for stream in (sys.stdout, sys.stderr):
-            try:
-                stream.flush()
-            except (OSError, ValueError):
-                pass
-        os._exit(130)
-    return 130
+def _leave_now(code: int) -> None:  # pragma: no cover - exercised in a subprocess
+    """Flush and end the process with *code*, skipping CPython's own exit.
+
+    Once a KeyboardInterrupt has passed through a library's embedded code run (even one the
+    library swallowed), CPython ends the process by SIGINT at exit whatever status we return;
+    a parent then reads -2 instead of our status.
+    """
+    for stream in (sys.stdout, sys.stderr):
+        try:
+            stream.flush()
+        except (OSError, ValueError):
+            pass
+    os._exit(code)
 
 
 def _started_as_program() -> bool:
@@ -124,6 +125,13 @@ def build_parser(command: str | None = None) -> argparse.ArgumentParser:
 
 def main(argv: list[str] | None = None) -> int:
     program = _started_as_program() and argv is None
+    code = _main(argv, program)
+    if program and _interrupted:  # a Ctrl-C reached our handler: leave with our status, not by SIGINT
+        _leave_now(code)
+    return code
+
+
+def _main(argv: list[str] | None, program: bool) -> int:
     try:
         args_list = sys.argv[1:] if argv is None else list(argv)
         if args_list == ["--version"]:  # answer without importing the commands
@@ -153,7 +161,7 @@ def main(argv: list[str] | None = None) -> int:
         if program:
             _set_sigint(_quiet_exit)  # a second Ctrl-C while we stop is just as quiet
         print("nogo: interrupted", file=sys.stderr)
-        return _interrupted_status(program)
+        return 130
     except RecursionError:
         print("nogo: error: the input is nested too deeply to process", file=sys.stderr)
         return 2
@@ -164,7 +172,7 @@ def main(argv: list[str] | None = None) -> int:
     except Exception as exc:  # noqa: BLE001 - a user sees one line, developers set NOGO_DEBUG
         if _interrupted:  # the interrupt came through a library that replaced it with another error
             print("nogo: interrupted", file=sys.stderr)
-            return _interrupted_status(program)
+            return 130
         if os.environ.get("NOGO_DEBUG"):
             raise
         print(f"nogo: internal error: {type(exc).__name__}: {exc} (set NOGO_DEBUG=1 for details)", file=sys.stderr)
