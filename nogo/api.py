@@ -158,7 +158,7 @@ class FacetsView(_View):
         return "\n".join(L)
 
     def to_dict(self) -> dict:
-        from .facets import export
+        from .facetexport import export
 
         import json
 

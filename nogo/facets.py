@@ -38,7 +38,6 @@ from pathlib import Path
 import numpy as np
 
 from . import facetstore
-from .facetexport import comparison_to_dict, export, to_dict  # noqa: F401 - the exports, importable from here
 from .facetstore import cache_dir  # noqa: F401 - importable from here as before
 from .compile import compile_bundle
 from .inequality import Inequality
@@ -49,6 +48,7 @@ from .polytope.group import move_matrix
 from .report import q
 from .symmetry import Generator, bundle_generators, permutation
 from .theory import Theory
+from .unionfind import DisjointSets
 
 # ---------------------------------------------------------------------------
 # results
@@ -204,14 +204,7 @@ def classify(P: Polytope, gens: list[Generator]) -> tuple[list[list[int]], list[
     F = np.array([list(f.a) + [f.b] for f in P.facets], dtype=object).reshape(n, k + 1)
     Fi = F.astype(np.int64) if n and int(np.max(np.abs(F))) < 2**40 else F
     keys = {tuple(int(v) for v in row): i for i, row in enumerate(Fi)}
-    parent = list(range(n))
-
-    def find(i):
-        while parent[i] != i:
-            parent[i] = parent[parent[i]]
-            i = parent[i]
-        return i
-
+    sets = DisjointSets(n)
     for M in mats:
         img = _apply_matrix(Fi, M)
         for i, row in enumerate(img):
@@ -220,12 +213,10 @@ def classify(P: Polytope, gens: list[Generator]) -> tuple[list[list[int]], list[
                 if P.status == "complete":
                     raise RuntimeError("a symmetry of the vertex set maps a facet to a non-facet (a bug)")
                 continue
-            ri, rj = find(i), find(j)
-            if ri != rj:
-                parent[max(ri, rj)] = min(ri, rj)
+            sets.union(i, j)
     orbits: dict[int, list[int]] = {}
     for i in range(n):
-        orbits.setdefault(find(i), []).append(i)
+        orbits.setdefault(sets.find(i), []).append(i)
     return list(orbits.values()), kept, dropped
 
 

@@ -28,7 +28,8 @@ import pytest
 
 from nogo.check import decide
 from nogo.compile import compile_bundle
-from nogo.facets import classify, compare, compare_results, export, facets, to_dict
+from nogo.facetexport import export, to_dict
+from nogo.facets import classify, compare, compare_results, facets
 from nogo.inequality import parse_inequality
 from nogo.symmetry import generators
 from nogo.theory import load_theory_text

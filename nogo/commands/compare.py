@@ -24,7 +24,8 @@ def register(sub) -> None:
 
 
 def run(args) -> int:
-    from ..facets import compare_results, comparison_to_dict, facets
+    from ..facetexport import comparison_to_dict
+    from ..facets import compare_results, facets
 
     theory = theory_of(args)
     opts = _options(args)

@@ -115,7 +115,8 @@ def _options(args) -> dict:
 
 def run(args) -> int:
     from ..atomic import write_text
-    from ..facets import export, facets, to_dict
+    from ..facetexport import export, to_dict
+    from ..facets import facets
 
     theory = theory_of(args)
     with engine_of(args), _Bars(args.json or args.format != "text") as bars:

@@ -20,7 +20,7 @@ from ..model import LinearModel
 from ..scenario import Scenario
 from ..supports import refuse_support_only
 from ..theory import Theory
-from . import guard
+from .guard import not_listed, refuse_cells, refuse_group, refuse_total
 from .bundle import GroupConstraint, GroupSpec, Settings, _Bundle, _groups, _read_bundle
 from .columns import Plan, build_model
 from .equivalent import _convex_linear, _vacuous
@@ -66,18 +66,18 @@ def compile_mixture(theory: Theory, spec: str | list[str], max_columns: int = 20
             plan.notes.append(f"{a}: none of {list(evs)} is present; by projection it adds nothing")
     convex = len(groups) == 1 and not b.predet and all(plan.free)
     if convex:  # decided from the declaration, before any response or cell is listed
-        why = guard.not_listed(sc, plan.specs[0], max_columns, max_response_cells)
+        why = not_listed(sc, plan.specs[0], max_columns, max_response_cells)
         if why:
             return _convex_linear(theory, label, assumptions, b, why, max_columns)
     for g, gs in zip(groups, plan.specs):
-        guard.refuse_cells(theory, label, g, gs, b, grouped_by, max_columns)
+        refuse_cells(theory, label, g, gs, b, grouped_by, max_columns)
     why = _list_responses(sc, plan, max_columns, max_response_cells)
     if why is not None:
         g, gs, text = why
         if convex:
             return _convex_linear(theory, label, assumptions, b, text, max_columns)
-        guard.refuse_group(theory, label, g, gs, b, grouped_by, text)
-    guard.refuse_total(theory, label, groups, plan.specs, plan.counts, plan.total, plan.classes, plan.free, b,
+        refuse_group(theory, label, g, gs, b, grouped_by, text)
+    refuse_total(theory, label, groups, plan.specs, plan.counts, plan.total, plan.classes, plan.free, b,
                        grouped_by, max_columns)
     return build_model(sc, plan, progress)
 

@@ -8,7 +8,7 @@ group; resumable through the store in ``--cache-dir``: a run stopped by the
 time limit leaves its closed classes there and the next call resumes from
 them) and, when the list is complete, writes under ``results/facets/NAME/``:
 
-* ``classes.json``   the exporter's JSON (:func:`nogo.facets.to_dict`): theory,
+* ``classes.json``   the exporter's JSON (:func:`nogo.facetexport.to_dict`): theory,
   bundle, counts, coordinates, symmetry group, every class with its size and
   representative; the per-facet list only when it has at most
   ``--full-list-limit`` facets (else ``nogo facets THEORY BUNDLE --all``
@@ -71,7 +71,8 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--times", default="", help="the times of the attempts (a resumed run), for the README")
     a = ap.parse_args(argv)
 
-    from nogo.facets import facets, to_dict
+    from nogo.facetexport import to_dict
+    from nogo.facets import facets
     from nogo.polytope.certify import to_payload
     from nogo.theory import load_theory
 
