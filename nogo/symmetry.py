@@ -17,6 +17,7 @@ from typing import Callable, Iterable
 
 from .inequality import Coord, Inequality, canonical_form
 from .scenario import Scenario
+from .unionfind import DisjointSets
 
 Move = Callable[[Coord], Coord]
 
@@ -325,22 +326,14 @@ def _equal_classes(model):
     if got is not None:
         return got
     n = len(model.columns)
-    parent = list(range(n))
-
-    def find(i):
-        while parent[i] != i:
-            parent[i] = parent[parent[i]]
-            i = parent[i]
-        return i
+    sets = DisjointSets(n)
     rest = []
     for c, v, b in _row_ints(model):
         if len(c) == 2 and b == 0 and sorted(v) == [-1, 1]:
-            ri, rj = find(int(c[0])), find(int(c[1]))
-            if ri != rj:
-                parent[ri] = rj
+            sets.union(int(c[0]), int(c[1]))
         else:
             rest.append((c, v, b))
-    cls = np.array([find(i) for i in range(n)], dtype=np.int64)
+    cls = np.array([sets.find(i) for i in range(n)], dtype=np.int64)
     got = model.extra["_equal_classes"] = (cls, rest)
     return got
 

@@ -46,6 +46,7 @@ from fractions import Fraction
 import numpy as np
 
 from .ints import PolytopeError, _lcm, primitive
+from ..unionfind import DisjointSets
 
 
 def has_nauty() -> bool:
@@ -186,26 +187,18 @@ class GraphClasses:
     def _colour_by_orbits(self) -> None:
         """Refine the level colours to the orbits of the verified moves on the forest's nodes."""
         st = self.st
-        parent = list(range(st.coord0))
-
-        def find(i):
-            while parent[i] != i:
-                parent[i] = parent[parent[i]]
-                i = parent[i]
-            return i
+        sets = DisjointSets(st.coord0)
         for p in self.perms:
             image = self._forest_image(p)
             if image is None:
                 raise PolytopeError("a verified symmetry does not move the scenario's forest")
             for u, v in image.items():
-                ru, rv = find(u), find(v)
-                if ru != rv:
-                    parent[ru] = rv
+                sets.union(u, v)
         cells = []
         for cell in st.cells:
             orbits: dict[int, set[int]] = {}
             for u in cell:
-                orbits.setdefault(find(u), set()).add(u)
+                orbits.setdefault(sets.find(u), set()).add(u)
             cells += sorted(orbits.values(), key=min)
         st.cells = cells
 

@@ -34,6 +34,7 @@ from .group import enumerate_group, move_matrix
 from .hull import _coords_matrix, int_matmul
 from .ints import PolytopeError, Progress, _zmat, primitive
 from .result import HullFacet, Polytope
+from ..unionfind import DisjointSets
 
 
 _MANY = 12  # points per dimension above which the plain hull is used
@@ -126,23 +127,15 @@ class _Graph:
         P = _integer_points(points)
         index = {p: i for i, p in enumerate(points)}
         label = np.arange(len(points))
-        parent = list(range(len(points)))
-
-        def find(i):
-            while parent[i] != i:
-                parent[i] = parent[parent[i]]
-                i = parent[i]
-            return i
+        sets = DisjointSets(len(points))
         for perm in self.perms_on_coords:
             pp = point_permutation(points, index, perm, P)
             if pp is None:
                 raise PolytopeError("a verified symmetry does not map the points onto themselves")
             for i, j in enumerate(pp):
-                ri, rj = find(i), find(int(j))
-                if ri != rj:
-                    parent[max(ri, rj)] = min(ri, rj)
+                sets.union(i, int(j))
         for i in range(len(points)):
-            label[i] = find(i)
+            label[i] = sets.find(i)
         return label
 
 
