@@ -2,78 +2,140 @@
 
 Used by :mod:`nogo.family` (question ``lf-equals-bell``, route ``oracle``)
 when no cheap witness separates the two sets, i.e. where they are expected
-to be equal.  Method: two polytopes are equal iff each one's vertices lie in
-the other (Minkowski–Weyl; common practice).  Bell-local ⊆ local
-friendliness is shown vertex by vertex (certified preimages in the
-local-friendliness model); local friendliness ⊆ Bell-local needs no vertex
-of local friendliness: it holds iff every Bell-local facet is valid on it,
-a bound question for the LP oracle with an exact Farkas certificate.  The
-facets are decided one per orbit under symmetries verified on the
-local-friendliness model (a symmetry maps a certificate to a certificate).
+to be equal.  Method (Minkowski–Weyl; common practice): two polytopes are
+equal iff each lies in the other.
+
+* Bell-local ⊆ local friendliness: by the assumptions' strength this always
+  holds (absoluteness and local agency follow from joint counterfactual
+  outcomes with setting independence; K.-W. Bong et al., Nature Physics 16,
+  1199 (2020)), and it is *shown* here vertex by vertex: every Bell-local
+  vertex gets an exact preimage in the local-friendliness model.
+* local friendliness ⊆ Bell-local: the Bell-local set is {x : E x = e,
+  F x <= f}.  First every equation of its affine hull is asked on local
+  friendliness both ways (Farkas certificates; a certified point off an
+  equation shows "not equal" at once: the one-lab-at-a-time reading in three
+  labs is signalling).  Then every facet: a relabelling that is a verified
+  symmetry of the local-friendliness model *and* permutes the Bell-local
+  vertices maps both sets onto themselves, so one exact LP per orbit of the
+  Bell-local facets under those moves decides it (orbits by
+  :func:`nogo.facets.classify`, array arithmetic).  The time limit is
+  checked between batches of bound questions.
+
 Imports nothing of :mod:`nogo.family` (results are filled in duck-typed).
 """
 
 from __future__ import annotations
 
 import time
+from fractions import Fraction
+
+BATCH = 32  # bound questions per oracle batch (the time limit is checked between batches)
 
 
-def equal_by_oracle(th, res, deadline: float | None) -> None:
-    """Local friendliness against the Bell-local set with one hull only (the Bell-local one).
-
-    Two polytopes are equal iff each one's vertices lie in the other.  The
-    Bell-local vertices are derived exactly; each is shown to lie in the
-    local-friendliness model by a certified preimage (an exact point of the
-    model).  The other direction needs no vertex of local friendliness: it
-    lies inside the Bell-local set iff every Bell-local facet holds on it,
-    which the LP oracle decides with a Farkas certificate (re-checked
-    exactly).  One facet per orbit under the verified symmetries of the
-    local-friendliness model is decided: a symmetry of the model maps a
-    certificate to a certificate (:func:`nogo.symmetry.lift_to_model`).
-    """
-    from .check import decide, recheck
+def equal_by_oracle(th, res, deadline: float | None, lf_bundle: str = "local-friendliness") -> None:
+    """Fill *res* with the answer to "does *lf_bundle* equal the Bell-local set?" (see the module docstring)."""
     from .compile import compile_bundle
     from .facets import facets
-    from .polytope.oracle import oracle_batch
-    from .symmetry import bundle_generators, lift_to_model, orbit
 
     t0 = time.perf_counter()
     # the hull from joint counterfactual outcomes: a linear model, so facets go class by class under its
     # verified symmetries (the mixture of deterministic strategies has none verified: one plain hull)
     bundle = "Bell-local-joint" if "Bell-local-joint" in th.bundles else "Bell-local"
-    left = None if deadline is None else max(1.0, deadline - time.perf_counter())
-    r2 = facets(th, bundle, cache=False, time_limit=left)
+    r2 = facets(th, bundle, cache=False, time_limit=_left(deadline))
     if r2.status != "complete":
         res.answer = res.answer or "out of time"
         res.notes.append("Bell-local facet derivation hit the time limit")
         return
     res.facets = {"Bell-local": len(r2.facets)}
     res.classes = {"Bell-local": len(r2.classes)}
-    lf = compile_bundle(th, "local-friendliness")
+    lf = compile_bundle(th, lf_bundle)
     models = [("local friendliness", lf)]
     if bundle != "Bell-local":  # the same set as the deterministic mixtures (Fine 1982): shown vertex by vertex
         models.append(("the Bell-local mixture", compile_bundle(th, "Bell-local")))
+    if not _vertices_inside(r2, models, res):
+        return
+    if not _equations_hold(r2, lf, res):
+        return
+    orbits, moves = _orbits(th, r2, lf, lf_bundle)
+    if not _facets_hold(r2, lf, orbits, res, deadline):
+        return
+    res.answer, res.relation = "equal", "equal"
+    res.facets["local-friendliness"] = len(r2.facets)
+    res.evidence.append(
+        f"Bell-local set derived exactly ({bundle}: {len(r2.facets)} facets in {len(r2.classes)} classes, "
+        f"{len(r2.vertices)} vertices); every vertex has an exact preimage in "
+        f"{' and in '.join(w for w, _ in models)}; the {len(r2.polytope.equations)} equations of its affine hull "
+        f"hold on local friendliness (Farkas certificates both ways); every Bell-local facet holds on local "
+        f"friendliness: {len(orbits)} orbit representatives decided with exactly checked Farkas certificates, "
+        f"the rest their images under {len(moves)} moves that are verified symmetries of both sets "
+        f"({time.perf_counter() - t0:.1f} s)")
+
+
+def _left(deadline: float | None) -> float | None:
+    return None if deadline is None else max(1.0, deadline - time.perf_counter())
+
+
+def _vertices_inside(r2, models, res) -> bool:
+    from .polytope.oracle import oracle_batch
+
     for who, model in models:
         answers = oracle_batch((model, "member", list(r2.vertices)))
         missing = [v for v, a in zip(r2.vertices, answers) if a.point != tuple(v)]
         if missing:
             res.answer = res.answer or "unverified"
-            res.notes.append(f"{len(missing)} Bell-local vertices without a certified preimage in {who}")
-            return
-    gens = [g for g in bundle_generators(th, "local-friendliness") if lift_to_model(lf, g) is not None]
-    reps = _orbit_representatives(r2.facets, gens, orbit)
-    coord = {c: i for i, c in enumerate(th.scenario.coordinates())}
-    decided = 0
-    for k in range(0, len(reps), 64):  # batches of bound questions; the time limit between batches
+            res.notes.append(f"{len(missing)} Bell-local vertices without an exact preimage in {who}")
+            return False
+    return True
+
+
+def _equations_hold(r2, lf, res) -> bool:
+    """Every equation of the Bell-local affine hull holds on local friendliness (both ways), or a point off it."""
+    from .polytope.oracle import oracle_batch
+
+    eqs = r2.polytope.equations
+    qs = [(tuple(Fraction(s * x) for x in h), s * Fraction(v), None) for h, v in eqs for s in (1, -1)]
+    for i, a in enumerate(oracle_batch((lf, "max", qs))):
+        if a.valid:
+            continue
+        if a.valid is False and a.point is not None:
+            h, v = eqs[i // 2]
+            value = sum(Fraction(x) * y for x, y in zip(h, a.point))
+            res.answer, res.relation = "not equal", "local friendliness outside the Bell-local affine hull"
+            res.evidence.append(f"an equation of the Bell-local affine hull fails on local friendliness: "
+                                f"{_eq_text(r2, h, v)}, value {value} at a certified point of the model")
+            return False
+        res.answer = res.answer or "unverified"
+        res.notes.append(f"equation {_eq_text(r2, *eqs[i // 2])}: the oracle gave neither certificate nor point")
+        return False
+    return True
+
+
+def _orbits(th, r2, lf, lf_bundle: str) -> tuple[list[list[int]], list[str]]:
+    """Orbits of the Bell-local facets under the moves that are symmetries of both sets."""
+    from .facets import classify
+    from .symmetry import bundle_generators, lift_to_model
+
+    gens = [g for g in bundle_generators(th, lf_bundle) if lift_to_model(lf, g) is not None]
+    orbits, kept, _dropped = classify(r2.polytope, gens)
+    return sorted(orbits, key=lambda m: (min(m), len(m))), kept
+
+
+def _facets_hold(r2, lf, orbits, res, deadline) -> bool:
+    """One bound question per orbit; a failure decided exactly with a re-checked counterexample."""
+    from .check import decide, recheck
+    from .polytope.oracle import oracle_batch
+
+    coord = {c: i for i, c in enumerate(r2.scenario.coordinates())}
+    reps = [r2.facets[min(m)] for m in orbits]
+    for k in range(0, len(reps), BATCH):
         if deadline is not None and time.perf_counter() > deadline:
             res.answer = res.answer or "out of time"
             res.notes.append(f"oracle comparison stopped at the time limit ({len(reps) - k} of {len(reps)} "
                              "orbit representatives left)")
-            return
-        batch = reps[k:k + 64]
+            return False
+        batch = reps[k:k + BATCH]
         answers = oracle_batch((lf, "max", [(_vector(f.inequality, coord), f.inequality.bound, None) for f in batch]))
         for f, ans in zip(batch, answers):
-            decided += 1
             if ans.valid:
                 continue  # a certified bound: rounded duals checked exactly by the oracle
             r = decide(lf, f.inequality)  # not certified, or beyond: decide exactly, with a witness
@@ -81,39 +143,24 @@ def equal_by_oracle(th, res, deadline: float | None) -> None:
             if bad:
                 res.answer = "unverified"
                 res.notes.append(f"re-check failed: {bad}")
-                return
+                return False
             if not r.implied:
                 res.answer, res.relation = "not equal", "Bell-local inside local friendliness, strictly"
                 res.evidence.append(f"Bell-local facet {f.text} fails on local friendliness: maximum {r.maximum} "
                                     f"(rational point of the model, re-checked exactly)")
-                return
-    res.answer, res.relation = "equal", "equal"
-    res.facets["local-friendliness"] = len(r2.facets)
-    res.evidence.append(
-        f"Bell-local set derived exactly ({bundle}: {len(r2.facets)} facets, {len(r2.vertices)} vertices); every "
-        f"vertex has a certified preimage in {' and in '.join(w for w, _ in models)}; every Bell-local facet holds on local "
-        f"friendliness: {decided} orbit representatives with exactly checked Farkas certificates, the rest "
-        f"their images under {len(gens)} verified symmetry generators of the model ({time.perf_counter() - t0:.1f} s)")
-
-
-def _orbit_representatives(facets, gens, orbit) -> list:
-    """One facet per orbit of the group the verified generators make (orbits by canonical form)."""
-    seen: set = set()
-    reps = []
-    for f in facets:
-        key = f.inequality.canonical()
-        if key in seen:
-            continue
-        reps.append(f)
-        seen.update(q.canonical() for q in orbit(f.inequality, gens))
-    return reps
+                return False
+    return True
 
 
 def _vector(ineq, coord: dict) -> list:
     """The inequality's coefficients over the scenario's coordinates, in their order."""
-    from fractions import Fraction
-
     c = [Fraction(0)] * len(coord)
     for k, v in ineq.coeffs.items():
         c[coord[k]] = Fraction(v)
     return c
+
+
+def _eq_text(r2, h, v) -> str:
+    terms = [f"{'+' if c > 0 else '-'} {abs(c) if abs(c) != 1 else ''}p({' '.join(a)}|{' '.join(s)})"
+             for c, (s, a) in zip(h, r2.scenario.coordinates()) if c]
+    return " ".join(terms).lstrip("+ ") + f" = {v}"
