@@ -1,36 +1,10 @@
 """Families of scenarios: one question over scenarios generated from a small template.
 
-A *template* gives ranges: numbers of labs, settings per lab (one number for
-every lab, or one per lab such as ``3/2``), numbers of outcomes, and which
-labs hold an inner observer (read out at the lab's setting 1).  Every
-combination is a :class:`Member`; each member is written as an ordinary
-theory (YAML text, :func:`Member.theory_text`) with absoluteness, local
-agency *generated from the light-cone structure* (:mod:`nogo.lightcone`,
-labs pairwise space-like, inner observers before their lab's choice) and
-the Bell-local set as mixtures of deterministic local strategies (J. S.
-Bell, Physics 1, 195 (1964); equal to joint counterfactual outcomes with
-setting independence by A. Fine, PRL 48, 291 (1982); the mixture model has
-one column per strategy, far smaller than the counterfactual joint).
-
-Sequential friends (``sequence: k``): in every friend lab the friend
-measures k times in sequence; at setting j <= k the super-observer reads out
-the j-th record, at a larger setting it undoes every measurement and measures
-itself; the j-th record exists only in runs whose setting is >= j, and each
-stage's decision (read out now, or undo and instruct the next measurement) is
-free.  Local agency then says: the joint of the records made so far and of
-every event in the other labs does not depend on the decisions still to
-come.  This is *exactly* the scenario with k inner observers per lab, all
-present in every run and measuring before the lab's choice (records
-``A_f1..A_fk`` read out at settings 1..k, local agency generated for the
-default light cone): a model of the latter gives one of the former by
-forgetting the records that do not exist; conversely a sequential model is
-extended, lab by lab, by drawing the missing records at setting j from their
-conditional at a setting > k given the earlier records and every event
-outside the lab (the stage-j independence makes the marginals agree, and
-the extension keeps every other lab's constraints, since its joint at
-setting j is the image of the joint at the largest setting).  That argument
-is ours (written out in DEVELOPERS.md); the sequential scenario itself is
-that of arXiv:2305.09102.
+The template and its members (ordinary theories with generated local
+agency; sequential and nested friends; the two readings of local agency)
+are :mod:`nogo.family_template`.  This module sizes each member
+(:func:`estimate`), answers the question for it (:func:`run_job`) and fans
+the members out (:func:`run_family`).
 
 Questions (each answer carries exact evidence):
 
@@ -40,10 +14,12 @@ Questions (each answer carries exact evidence):
   catalog entries that apply are decided under both bundles; an inequality
   the Bell-local bundle implies (Farkas certificate) and local friendliness
   does not (rational counterexample), both re-checked, shows "not equal".
-  Then, where the size estimate puts it in reach, both sets are derived
-  exactly (:func:`nogo.facets.facets`) and compared
-  (:func:`nogo.facets.compare_results`): equal / strictly larger, with facet
-  counts.
+  Without a witness, the oracle route (:mod:`nogo.family_oracle`): the
+  Bell-local hull only, its vertices shown inside local friendliness, its
+  affine hull and one facet per orbit (under the moves both sets share)
+  decided on local friendliness with exact certificates.  ``--route facets``
+  derives both sets exactly (:func:`nogo.facets.facets`) and compares them
+  (:func:`nogo.facets.compare_results`).
 * ``lf-equals-pd`` — does local friendliness equal the partially
   deterministic set (mixtures, over a setting-independent lam, of
   no-signalling behaviours whose inner records, hence read-out outcomes, lam
@@ -69,198 +45,15 @@ from dataclasses import asdict, dataclass, field
 from typing import Any
 
 from .errors import InputError, Where
+from .family_template import PARTY_NAMES, Member, Template, template_from_yaml  # noqa: F401
 from .fanout import fan_out
 
 QUESTIONS = ("lf-equals-bell", "lf-equals-pd", "facets", "implies")
-PARTY_NAMES = "ABCDEFGH"
 #: the largest Bell-local hull measured class by class here (``nogo facets``, symmetric route, one busy
 #: core): three labs, two settings each, 64 vertices in dimension 26 — 53,856 facets in 46 classes in 66 s
 #: (results/bell-3x2-Bell-local.txt); a plain hull of the same points takes about 8 minutes
 CLASS_HULL_MEASURED = (64, 26)
 LP_COLUMNS = 5000  # larger local-friendliness models: an exact decision takes minutes here (measured: 1728 columns, ~1 s)
-
-
-@dataclass(frozen=True)
-class Member:
-    """One scenario of a family: settings per lab, outcomes, which labs hold an inner observer."""
-
-    settings: tuple[int, ...]
-    outcomes: int
-    friends: tuple[bool, ...]
-    sequence: int = 1  # friend measurements per friend lab (sequential friend, read out at settings 1..sequence)
-
-    @property
-    def labs(self) -> int:
-        return len(self.settings)
-
-    @property
-    def parties(self) -> tuple[str, ...]:
-        return tuple(PARTY_NAMES[i] for i in range(self.labs))
-
-    @property
-    def key(self) -> str:
-        fr = "".join(p for p, f in zip(self.parties, self.friends) if f) or "none"
-        seq = f"-seq{self.sequence}" if self.sequence > 1 else ""
-        return f"{self.labs}labs-s{'x'.join(map(str, self.settings))}-o{self.outcomes}-friends-{fr}{seq}"
-
-    def describe(self) -> str:
-        fr = ", ".join(p for p, f in zip(self.parties, self.friends) if f) or "none"
-        seq = (f", each friend measuring {self.sequence} times in sequence (read out at settings 1..{self.sequence})"
-               if self.sequence > 1 else "")
-        return (f"{self.labs} labs, settings {'/'.join(map(str, self.settings))}, {self.outcomes} outcomes, "
-                f"inner observers in {fr}{seq}")
-
-    def records(self, party: str) -> list[tuple[str, int]]:
-        """The inner records of a lab with the setting each is read out at."""
-        if not self.friends[self.parties.index(party)]:
-            return []
-        if self.sequence == 1:
-            return [(f"{party}_in", 1)]
-        return [(f"{party}_f{j}", j) for j in range(1, self.sequence + 1)]
-
-    def outcome_labels(self) -> list[str]:
-        return ["+1", "-1"] if self.outcomes == 2 else [str(k) for k in range(self.outcomes)]
-
-    def theory_text(self) -> str:
-        outs = ", ".join(self.outcome_labels())
-        lines = [f"title: {self.describe()}", "scenario:", "  parties:"]
-        for p, m in zip(self.parties, self.settings):
-            lines.append(f"    {p}: {{settings: [{', '.join(str(x + 1) for x in range(m))}], outcomes: [{outs}]}}")
-        friends = [p for p, f in zip(self.parties, self.friends) if f]
-        records = [(p, r, x) for p in self.parties for r, x in self.records(p)]
-        if friends:
-            lines.append("  inner_observers:")
-            lines += [f"    {r}: {{lab: {p}, outcomes: [{outs}], read_out_at: {x}}}" for p, r, x in records]
-        lines += ["light_cone:", "  says: labs pairwise space-like; inner observers measure before their lab's choice",
-                  "  name: agency", "assumptions:"]
-        if friends:
-            lines += ["  absoluteness:", "    says: the inner records have single values in every run",
-                      "    source: K.-W. Bong et al., Nature Physics 16, 1199 (2020), arXiv:1907.05607",
-                      f"    absolute: [{', '.join(r for _, r, _ in records)}]"]
-        sets = ", ".join(f"{p}.setting" for p in self.parties)
-        lines += ["  hidden:", "    says: a hidden variable lam of unspecified finite size", "    hidden: lam",
-                  "  lam-free:", "    says: lam does not depend on the settings",
-                  "    source: A. Fine, Phys. Rev. Lett. 48, 291 (1982)",
-                  f"    independent: {{events: [lam], of: [{sets}]}}",
-                  "  predetermined-local:", "    says: each outcome is a function of lam and its own lab's setting",
-                  "    source: J. S. Bell, Physics 1, 195 (1964)", "    predetermined:"]
-        lines += [f"      - {{events: [{p}], given: [lam], depends_on: [{p}.setting]}}" for p in self.parties]
-        recs = [r for _, r, _ in records]
-        if recs:
-            lines += ["  records-fixed:", "    says: given lam, each inner record is fixed by lam and its own lab's setting",
-                      "    source: partially deterministic behaviours, arXiv:2510.25127", "    predetermined:"]
-            lines += [f"      - {{events: [{r}], given: [lam], depends_on: [{p}.setting]}}" for p, r, _ in records]
-            lines += ["  records-free:", "    says: given lam, the inner records depend on no setting",
-                      f"    independent: {{events: [{', '.join(recs)}], of: [{sets}], given: [lam]}}"]
-        lines += ["  no-signal-given-lam:", "    says: given lam, no lab's setting changes the other labs' outcomes",
-                  "    source: S. Popescu and D. Rohrlich, Found. Phys. 24, 379 (1994)", "    independent:"]
-        lines += [f"      - {{events: [{', '.join(q for q in self.parties if q != p)}], of: [{p}.setting], given: [lam]}}"
-                  for p in self.parties]
-        allcf = ", ".join(f'"{p}@*"' for p in self.parties)
-        lines += ["  counterfactual:", "    says: an outcome exists for every setting of every lab, jointly",
-                  "    source: A. Fine, Phys. Rev. Lett. 48, 291 (1982)", f"    counterfactual: [{', '.join(self.parties)}]",
-                  "  setting-independence:", "    says: the counterfactual outcomes do not depend on the settings chosen",
-                  "    source: A. Fine, Phys. Rev. Lett. 48, 291 (1982)",
-                  f"    independent: {{events: [{allcf}], of: [{sets}]}}"]
-        pd = (["absoluteness"] if friends else []) + ["hidden", "lam-free"] + \
-            (["records-fixed", "records-free"] if recs else []) + ["no-signal-given-lam"]
-        lines += ["bundles:", f"  partly-determined: [{', '.join(pd)}]",
-                  f"  local-friendliness: [{', '.join((['absoluteness'] if friends else []) + [f'agency-{p}' for p in self.parties])}]",
-                  "  Bell-local: [hidden, lam-free, predetermined-local]",
-                  "  Bell-local-joint: [counterfactual, setting-independence]"]
-        return "\n".join(lines) + "\n"
-
-    def theory(self):
-        from .theory import load_theory_text
-
-        return load_theory_text(self.theory_text(), f"<family member {self.key}>")
-
-
-# ---------------------------------------------------------------------------
-# templates
-# ---------------------------------------------------------------------------
-@dataclass(frozen=True)
-class Template:
-    labs: tuple[int, ...] = (2,)
-    settings: tuple[str, ...] = ("2", "3")  # "3" = every lab; "3/2" = per lab (only for that many labs)
-    outcomes: tuple[int, ...] = (2,)
-    friends: tuple[str, ...] = ("all",)  # all | none | first | all-but-first | each (every subset, up to order)
-    sequence: tuple[int, ...] = (1,)  # friend measurements per friend lab (sequential friends)
-
-    def members(self) -> list[Member]:
-        out: list[Member] = []
-        for n in self.labs:
-            if not 2 <= n <= len(PARTY_NAMES):
-                raise InputError(f"{n} labs: a family member has 2 to {len(PARTY_NAMES)} labs",
-                                 Where("command line", key="labs"))
-            for spec in self.settings:
-                parts = [int(x) for x in spec.split("/")]
-                if len(parts) == 1:
-                    ms = tuple(parts * n)
-                elif len(parts) == n:
-                    ms = tuple(parts)
-                else:
-                    continue  # a per-lab spec for another number of labs
-                if min(ms) < 1:
-                    raise InputError(f"settings '{spec}': every lab needs at least one setting",
-                                     Where("command line", key="settings"))
-                for o in self.outcomes:
-                    if o < 2:
-                        raise InputError("a party needs at least two outcomes", Where("command line", key="outcomes"))
-                    for fr in self._friend_patterns(n, ms):
-                        for k in self.sequence:
-                            if k > 1 and (not any(fr) or k > min(m for m, f in zip(ms, fr) if f)):
-                                continue  # a sequence needs a friend and as many settings to read it out
-                            m = Member(ms, o, fr, k)
-                            if m not in out:
-                                out.append(m)
-        return out
-
-    def _friend_patterns(self, n: int, ms: tuple[int, ...]) -> list[tuple[bool, ...]]:
-        pats: list[tuple[bool, ...]] = []
-        for f in self.friends:
-            if f == "all":
-                pats.append((True,) * n)
-            elif f == "none":
-                pats.append((False,) * n)
-            elif f == "first":
-                pats.append((True,) + (False,) * (n - 1))
-            elif f == "all-but-first":
-                pats.append((False,) + (True,) * (n - 1))
-            elif f == "each":
-                seen = set()
-                for bits in itertools.product((True, False), repeat=n):
-                    sig = tuple(sorted(zip(ms, bits)))  # labs with equal settings play the same role
-                    if sig not in seen:
-                        seen.add(sig)
-                        pats.append(bits)
-            else:
-                raise InputError(f"unknown friends pattern '{f}'", Where("command line", key="friends"),
-                                 "one of: all, none, first, all-but-first, each")
-        return pats
-
-
-def template_from_yaml(path: str) -> Template:
-    """A template file: ``labs``, ``settings``, ``outcomes``, ``friends`` (lists; our own layout)."""
-    from .scenario import check_keys
-    from .yamlread import read_yaml_file
-
-    data = read_yaml_file(path)
-    if not isinstance(data, dict):
-        raise InputError("a family template is a mapping with labs, settings, outcomes, friends", Where(path, 1))
-    check_keys(data, {"labs", "settings", "outcomes", "friends", "sequence", "says", "question", "bundle",
-                      "inequality"}, "")
-
-    def lst(key, conv, default):
-        raw = data.get(key, default)
-        raw = raw if isinstance(raw, list) else [raw]
-        try:
-            return tuple(conv(x) for x in raw)
-        except (TypeError, ValueError):
-            raise InputError(f"'{key}' must list {'numbers' if conv is int else 'labels'}",
-                             data.where(key, key)) from None
-    return Template(lst("labs", int, [2]), lst("settings", str, ["2"]), lst("outcomes", int, [2]),
-                    lst("friends", str, ["all"]), lst("sequence", int, [1]))
 
 
 # ---------------------------------------------------------------------------
@@ -274,7 +67,7 @@ def estimate(m: Member) -> dict[str, Any]:
     dim = math.prod(s * (m.outcomes - 1) + 1 for s in m.settings) - 1
     bell_vertices = m.outcomes ** sum(m.settings)
     hull = hull_estimate(bell_vertices, dim)
-    lf_columns = math.prod(m.settings) * m.outcomes ** (m.labs + m.sequence * sum(m.friends))
+    lf_columns = math.prod(m.settings) * m.outcomes ** (m.labs + (m.sequence + m.nested) * sum(m.friends))
     in_reach = not hull.startswith("minutes") and bell_vertices <= 200_000
     lp_in_reach = lf_columns <= LP_COLUMNS
     # the oracle route needs the Bell-local hull only, class by class under its symmetries
@@ -368,6 +161,7 @@ def _witness(job: Job, th, deadline: float | None) -> tuple[dict[str, Any] | Non
     candidates += list(_catalog_witnesses(job.member, th))
     notes = []
     seen = set()
+    refused = 0
     for ineq in candidates:
         if deadline is not None and time.perf_counter() > deadline:
             notes.append("witness search stopped at the time limit")
@@ -376,7 +170,11 @@ def _witness(job: Job, th, deadline: float | None) -> tuple[dict[str, Any] | Non
         if key in seen:
             continue
         seen.add(key)
-        r_lf = decide(lf, ineq)
+        try:
+            r_lf = decide(lf, ineq)
+        except InputError:  # the marginal guard: a signalling set gives the inequality no single value
+            refused += 1
+            continue
         if r_lf.implied:
             continue
         r_bell = decide(bell, ineq)
@@ -390,7 +188,9 @@ def _witness(job: Job, th, deadline: float | None) -> tuple[dict[str, Any] | Non
                  "local_friendliness_maximum": str(r_lf.maximum), "bell_local_maximum": str(r_bell.maximum),
                  "evidence": "Bell-local: Farkas certificate re-checked exactly; local friendliness: rational "
                              "counterexample point re-checked exactly"}, notes)
-    notes.append(f"no witness among {len(seen)} lifted CHSH / catalog inequalities")
+    notes.append(f"no witness among {len(seen)} lifted CHSH / catalog inequalities"
+                 + (f" ({refused} refused: their marginals depend on other labs' settings under local friendliness)"
+                    if refused else ""))
     return None, notes
 
 

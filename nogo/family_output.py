@@ -9,16 +9,23 @@ from __future__ import annotations
 from .family import FamilyResult
 
 
-#: the column that states the published classification, as this project recalls it (not looked up)
-CRITERION = "arXiv:2407.20346 (from memory)"
-NOTE = ("Column '" + CRITERION + "': the classification of M. Haddara and E. G. Cavalcanti, arXiv:2407.20346, "
-        "as recalled here and not checked against the paper: local friendliness equals the Bell-local set exactly "
-        "when at most one lab has two or more settings besides those read out from its inner observers.  nogo does "
-        "not use it; the column 'answer' is computed.")
+#: the column that states the classification beside the computed answer
+CRITERION = "criterion (arXiv:2407.20346; argument in README)"
+NOTE = ("Column '" + CRITERION + "': M. Haddara and E. G. Cavalcanti, arXiv:2407.20346 (abstract, the only part of "
+        "the paper in the stored copy read for this project; the theorem's wording and number were not available) "
+        "identify every canonical local-friendliness scenario, with any finite numbers of superobservers, friends, "
+        "measurements and outcomes, in which the local-friendliness set admits a local hidden-variable model. The "
+        "column applies that classification in the form derived in results/families/README.md: under the published "
+        "local agency local friendliness equals the partially deterministic set (outcomes fixed at the read-out "
+        "settings; arXiv:2510.25127), and that set is Bell-local exactly when at most one lab has two or more "
+        "settings that are not read out. 'n/a': the one-lab-at-a-time reading, outside the classification. nogo does "
+        "not use the column; 'answer' is computed.")
 
 
-def criterion_from_memory(m) -> str:
-    """What the recalled classification says of a member (only for the lf-equals-bell question)."""
+def criterion(m) -> str:
+    """What the classification says of a member (only for the lf-equals-bell question)."""
+    if m.agency != "published" and m.labs > 2:
+        return "n/a"
     free = [s - (m.sequence if f else 0) for s, f in zip(m.settings, m.friends)]
     return "equal" if sum(1 for x in free if x >= 2) <= 1 else "not equal"
 
@@ -35,7 +42,7 @@ def table_rows(fr: FamilyResult) -> list[list[str]]:
         rows.append([m.key, str(m.labs), "/".join(map(str, m.settings)),
                      ",".join(p for p, f in zip(m.parties, m.friends) if f) or "none",
                      str(r.estimate["dimension"]), r.estimate["hull"].split(" (")[0], r.answer, fac, ev,
-                     str(r.seconds)] + ([criterion_from_memory(m)] if crit else []))
+                     str(r.seconds)] + ([criterion(m)] if crit else []))
     return rows
 
 

@@ -24,7 +24,8 @@ def register(sub) -> None:
                                    "Local agency is generated from the light-cone structure (labs space-like "
                                    "separated). Exit status 0 when every member was answered, 1 otherwise.")
     p.add_argument("template", nargs="?", default=None,
-                   help="template file (YAML: labs, settings, outcomes, friends); options below override it")
+                   help="template file (YAML: labs, settings, outcomes, friends, sequence, nested, agency); "
+                        "options below override it")
     p.add_argument("--preset", choices=sorted(PRESETS), default=None, help="a built-in template")
     p.add_argument("--labs", default=None, help="numbers of labs, e.g. 2,3")
     p.add_argument("--settings", default=None,
@@ -34,6 +35,11 @@ def register(sub) -> None:
                    help="which labs hold an inner observer: all, none, first, all-but-first, each (every pattern)")
     p.add_argument("--sequence", default=None,
                    help="friend measurements per friend lab, e.g. 1,2 (a sequential friend read out at settings 1..k)")
+    p.add_argument("--nested", default=None,
+                   help="friends of friends inside each friend, e.g. 0,1 (a chain read out always; not with --sequence > 1)")
+    p.add_argument("--agency", default=None,
+                   help="local-agency reading: published (all events jointly, default), one-lab (one lab at a time; "
+                        "three or more labs), or both: published,one-lab")
     p.add_argument("--question", default="lf-equals-bell", choices=("lf-equals-bell", "lf-equals-pd", "facets", "implies"),
                    help="lf-equals-bell (default): does local friendliness equal the Bell-local set?; lf-equals-pd: "
                         "does it equal the partially deterministic set?; facets: how "
@@ -57,6 +63,8 @@ def register(sub) -> None:
 
 
 def _template(args):
+    from dataclasses import replace
+
     from ..family import Template, template_from_yaml
 
     base = template_from_yaml(args.template) if args.template else Template(**PRESETS.get(args.preset or "", {}))
@@ -67,22 +75,15 @@ def _template(args):
         except ValueError:
             raise InputError(f"'{text}' is not a comma-separated list of numbers", Where("command line", key=key)) from None
     kw = {}
-    if args.labs:
-        kw["labs"] = ints(args.labs, "--labs")
-    if args.settings:
-        for part in args.settings.split(","):
-            if not all(x.isdigit() for x in part.split("/")):
-                raise InputError(f"'{part}' is not a settings spec", Where("command line", key="--settings"),
-                                 "write 3 (every lab) or 3/2 (one number per lab)")
-        kw["settings"] = tuple(args.settings.split(","))
-    if args.outcomes:
-        kw["outcomes"] = ints(args.outcomes, "--outcomes")
-    if args.friends:
-        kw["friends"] = tuple(args.friends.split(","))
-    if args.sequence:
-        kw["sequence"] = ints(args.sequence, "--sequence")
-    from dataclasses import replace
-    return replace(base, **kw)
+    for key in ("labs", "outcomes", "sequence", "nested"):
+        if getattr(args, key):
+            kw[key] = ints(getattr(args, key), f"--{key}")
+    for key in ("settings", "friends", "agency"):
+        if getattr(args, key):
+            kw[key] = tuple(getattr(args, key).split(","))
+    t = replace(base, **kw)
+    t.check(lambda key: Where("command line", key=f"--{key}"))
+    return t
 
 
 def run(args) -> int:
