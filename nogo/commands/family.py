@@ -10,8 +10,8 @@ from ._common import add_output, emit_json
 
 PRESETS = {
     # every canonical two- and three-lab scenario the command tries by default (results/families/)
-    "canonical": dict(labs=(2, 3), settings=("2", "3", "3/2", "4/2", "2/2/3"), outcomes=(2,), friends=("each",),
-                      sequence=(1, 2)),
+    "canonical": dict(labs=(2, 3), settings=("2", "3/2", "4/2", "2/2/3"), outcomes=(2,), friends=("each",),
+                      sequence=(1, 2), agency=("published", "one-lab")),
     "fixed-points": dict(labs=(2,), settings=("2", "3"), outcomes=(2,), friends=("all",)),
 }
 
