@@ -61,10 +61,10 @@ def implies_z3(theory: Theory, spec: str | list[str], ineq: Inequality, timeout_
             total.append(v)
             broken = False
             for k, (name, outs, kind, extra) in enumerate(ev):
-                if kind == "inner" and extra is not None:
-                    lab, when, shown = extra
-                    if all(s[i] == x for i, x in when):
-                        broken |= e[names.index(lab)] != shown[e[k]]
+                if kind == "inner":
+                    for lab, when, shown in extra:
+                        if all(s[i] == x for i, x in when):
+                            broken |= e[names.index(lab)] != shown[e[k]]
                 if kind == "latent":
                     pi = sc.party_names.index(extra[0])
                     broken |= s[pi] == extra[1] and e[pi] != e[k]
@@ -99,26 +99,34 @@ def implies_z3(theory: Theory, spec: str | list[str], ineq: Inequality, timeout_
     return res == z3.unsat
 
 
-def _chain(sc, o, absolute) -> tuple | None:
-    """(event shown, [(settings index, setting)], own outcome -> shown outcome) for a present observer.
+def _chain(sc, o, absolute) -> list[tuple]:
+    """[(event shown, [(settings index, setting)], own outcome -> shown outcome)] for a present observer.
 
     Walks the labs holding *o* until a present one (a party, or an observer
     declared absolute); every link's read-out setting joins the condition
-    (``always`` inside an observer without choices adds none).  None: the
-    chain meets an observer that reads nothing out.
+    (``always``, only ever inside an observer, adds none).  An observer
+    read out at several settings (``read_out_at: [x, y]``) branches, one
+    chain per setting with its own relabelling; combinations whose
+    conditions contradict are dropped.  A chain that meets an observer that
+    reads nothing out gives nothing.
     """
     names = list(sc.party_names)
     inner = {x.name: x for x in sc.inner}
-    shown = {v: v for v in o.outcomes}
-    when = []
-    cur = o
-    while cur.read_out_at is not None:
+    out = []
+    todo = [(o, {v: v for v in o.outcomes}, ())]
+    while todo:
+        cur, shown, when = todo.pop()
         outer = inner.get(cur.lab)
         outs = outer.outcomes if outer is not None else sc.parties[names.index(cur.lab)].outcomes
-        shown = {k: outs[cur.relabel[cur.outcomes.index(v)]] for k, v in shown.items()}
-        if not (outer is not None and cur.read_out_at == "always" and not outer.settings):
-            when.append((names.index(cur.lab), cur.read_out_at))
-        if outer is None or cur.lab in absolute:
-            return cur.lab, tuple(when), shown
-        cur = outer
-    return None
+        for at, relabel in cur.read_outs:
+            sh = {k: outs[relabel[cur.outcomes.index(v)]] for k, v in shown.items()}
+            w = when
+            if at != "always":  # (refused on a party; inside an observer it drops the condition)
+                if any(i == names.index(cur.lab) and x != at for i, x in when):
+                    continue
+                w = when + ((names.index(cur.lab), at),)
+            if outer is None or cur.lab in absolute:
+                out.append((cur.lab, w, sh))
+            else:
+                todo.append((outer, sh, w))
+    return out

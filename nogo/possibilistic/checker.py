@@ -52,6 +52,9 @@ class _World:
         # (name, outcomes, rule) with rule = None | ("inner", shown event, [(setting index, setting)], own -> shown)
         ev: list[tuple[str, tuple[str, ...], Any]] = [
             (p.name if p.choice_of is None else f"{p.name}.choice", p.outcomes, None) for p in sc.parties]
+        several = [o.name for o in sc.inner if o.several]  # not walked by _chain below: refused, never misread
+        if several:
+            raise ValueError(f"'{several[0]}' is read out at several settings: not read by this checker")
         for o in sc.inner:
             if o.name in absolute:
                 ev.append((o.name, o.outcomes, _chain(sc, o, absolute)))
