@@ -173,7 +173,7 @@ def _catalog_file(ctx: Context, claim: Claim, v: Verdict) -> None:
 # -- implications -------------------------------------------------------------------
 def _uses_read_out(ineq) -> bool:
     sc = ineq.scenario
-    ro = {(o.lab, o.read_out_at) for o in sc.inner if o.read_out_at is not None}
+    ro = {(o.lab, x) for o in sc.inner for x, _ in o.read_outs}  # every read-out setting
     return any((p, s[i]) in ro for (s, _), c in ineq.coeffs.items() if c for i, p in enumerate(sc.party_names))
 
 

@@ -9,6 +9,15 @@ settings of P" equates the marginal of E's present events at s with that at
 the tuple where P's settings are moved to their first value.  Only the
 theory reader (:mod:`nogo.theory`, validation only) is shared.
 
+Nested observers, observers' own choices and several read-outs are read
+here afresh (:func:`_chains`, not :mod:`nogo.events`): an observer's choice
+is a setting variable held after the parties' settings with one outcome
+``c`` (its event named ``NAME.choice``), and a present observer's read-out
+rules are the compositions of the links up to the first present lab, one
+per combination of read-out settings whose conditions can hold together
+(the rule of projection applied to deterministic equalities; DEVELOPERS.md,
+"Nested observers and observers' choices").
+
 Hidden-variable kinds are not rebuilt here: :class:`NotRebuilt` says so, and
 the checker reports those checks as not covered.
 """
@@ -46,8 +55,6 @@ def _present(scenario, assumptions) -> list[tuple[str, str, object]]:
     """(name, kind, info) of the present events in the order parties, inner observers, latent outcomes."""
     from ..theory import Absolute, Counterfactual, Factorise, Hidden, Independent, Predetermined
 
-    if getattr(scenario, "nested", False):  # chains of read-outs, observers' choices: not rebuilt here
-        raise NotRebuilt("nested observers and observers' own choices are not rebuilt by this checker")
     absolute, cf = set(), set()
     for a in assumptions:
         for c in a.clauses:
@@ -57,19 +64,51 @@ def _present(scenario, assumptions) -> list[tuple[str, str, object]]:
                 absolute |= set(c.events)
             if isinstance(c, Counterfactual):
                 cf |= set(c.parties)
-    out = [(p.name, "party", p) for p in scenario.parties]
-    out += [(o.name, "inner", o) for o in scenario.inner if o.name in absolute]
+    out = [(p.name if p.choice_of is None else f"{p.name}.choice", "party", p) for p in scenario.parties]
+    out += [(o.name, "inner", _chains(scenario, o, absolute)) for o in scenario.inner if o.name in absolute]
     for p in scenario.parties:
         if p.name in cf:
             out += [(f"{p.name}@{x}", "latent", (p, x)) for x in p.settings]
     return out
 
 
+def _chains(scenario, o, absolute) -> tuple:
+    """(o's outcomes, [(present lab, [(settings index, setting)], o's outcome -> the lab's shown)]).
+
+    Walks from *o* through the labs that hold it, one branch per read-out
+    setting of each link (``always``, only ever inside an observer, adds no
+    condition), to the first lab that is present: a party, or an observer
+    declared absolute.  Branches whose conditions ask one setting for two
+    values never hold and are dropped; a link without a read-out ends its branch.
+    """
+    names = [p.name for p in scenario.parties]
+    inner = {x.name: x for x in scenario.inner}
+    rules = []
+    todo = [(o, {v: v for v in o.outcomes}, ())]
+    while todo:
+        cur, shown, when = todo.pop()
+        lab = inner.get(cur.lab)
+        lab_outs = lab.outcomes if lab is not None else scenario.parties[names.index(cur.lab)].outcomes
+        for at, relabel in cur.read_outs:
+            now = {k: lab_outs[relabel[cur.outcomes.index(v)]] for k, v in shown.items()}
+            cond = when
+            if at != "always":
+                k = names.index(cur.lab)
+                if any(i == k and x != at for i, x in when):
+                    continue
+                cond = when + ((k, at),)
+            if lab is None or cur.lab in absolute:
+                rules.append((cur.lab, cond, now))
+            else:
+                todo.append((lab, now, cond))
+    return o.outcomes, rules
+
+
 def _outcomes(kind, info, scenario) -> tuple[str, ...]:
     if kind == "party":
         return info.outcomes
     if kind == "inner":
-        return info.outcomes
+        return info[0]
     return info[0].outcomes
 
 
@@ -89,11 +128,9 @@ def rebuild(theory, names: list[str], facts: list[tuple[tuple[str, ...], tuple[s
 
     def allowed(s, e) -> bool:
         for name, kind, info in ev:
-            if kind == "inner" and info.read_out_at is not None:
-                li = pnames.index(info.lab)
-                if s[li] == info.read_out_at:
-                    shown = sc.parties[li].outcomes[info.relabel[info.outcomes.index(e[pos[name]])]]
-                    if e[li] != shown:
+            if kind == "inner":
+                for lab, cond, shown in info[1]:
+                    if all(s[i] == x for i, x in cond) and e[pos[lab]] != shown[e[pos[name]]]:
                         return False
             if kind == "latent":
                 p, x = info
