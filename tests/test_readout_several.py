@@ -270,9 +270,34 @@ def test_smt_reads_several_read_outs_like_the_linear_model():
     assert verdicts == [True, True, False, True, True]
 
 
-def test_possibilistic_checker_refuses_rather_than_misreads():
-    from nogo.possibilistic.checker import _World
+PATTERN = """title: A always shows +1, B shows +1 at setting 1
+parties: [A, B]
+unlisted: impossible
+runs:
+  - {settings: [1, 1], possible: [[+1, +1]]}
+  - {settings: [1, 2], possible: [[+1, +1], [+1, -1]]}
+  - {settings: [2, 1], possible: [[+1, +1]]}
+  - {settings: [2, 2], possible: [[+1, +1], [+1, -1]]}
+"""
 
-    th = load_theory(DEMO)
-    with pytest.raises(ValueError, match="A_in' is read out at several settings"):
-        _World(th, "local-friendliness")
+
+def test_possibilistic_backend_reads_several_read_outs_and_its_checker_agrees(tmp_path):
+    # A shows +1 in every run (a no-signalling support pattern).  At A's setting 1, A = A_in, so A_in = +1 in
+    # every run there; local agency keeps A_in's support at A's setting 2, where A shows -A_in = -1: A = +1
+    # cannot occur.  Declared possible, it contradicts absoluteness with local agency (the copy relation of
+    # the module docstring, in supports); without absoluteness the pattern is consistent.  The proof is re-checked by the
+    # independent checker (nogo.possibilistic.checker), which walks the two read-outs afresh.
+    from nogo.possibilistic import check_proof, decide_pattern, load_pattern
+
+    th = load_theory_text(EVERY_2x2.replace("bundles:\n", "bundles:\n  agency-only: [agency-A, agency-B]\n"),
+                          "every.yaml")
+    (tmp_path / "copy.yaml").write_text(PATTERN)
+    pat = load_pattern(tmp_path / "copy.yaml", th.scenario)
+    r = decide_pattern(th, "local-friendliness", pat, time_limit=30)
+    assert r.contradiction
+    assert check_proof(th, "local-friendliness", pat, r.proof) == []
+    assert not decide_pattern(th, "agency-only", pat).contradiction
+    # with the flip dropped (A = A_in at both settings) the same pattern is consistent
+    plain = load_theory_text(EVERY_2x2.replace(", relabel: {2: {+1: -1, -1: +1}}", ""), "plain.yaml")
+    assert not decide_pattern(plain, "local-friendliness", load_pattern(tmp_path / "copy.yaml", plain.scenario)
+                              ).contradiction

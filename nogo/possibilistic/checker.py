@@ -49,12 +49,9 @@ class _World:
                     absolute.update(c.events)
                 elif isinstance(c, Counterfactual):
                     cf.update(c.parties)
-        # (name, outcomes, rule) with rule = None | ("inner", shown event, [(setting index, setting)], own -> shown)
+        # (name, outcomes, rule) with rule = None | ("inner", [(shown event, [(setting index, setting)], own -> shown)])
         ev: list[tuple[str, tuple[str, ...], Any]] = [
             (p.name if p.choice_of is None else f"{p.name}.choice", p.outcomes, None) for p in sc.parties]
-        several = [o.name for o in sc.inner if o.several]  # not walked by _chain below: refused, never misread
-        if several:
-            raise ValueError(f"'{several[0]}' is read out at several settings: not read by this checker")
         for o in sc.inner:
             if o.name in absolute:
                 ev.append((o.name, o.outcomes, _chain(sc, o, absolute)))
@@ -73,9 +70,9 @@ class _World:
             if rule is None:
                 continue
             if rule[0] == "inner":
-                _, lab, when, shown = rule
-                if all(s[i] == x for i, x in when) and e[pos[lab]] != shown[val]:
-                    return False
+                for lab, when, shown in rule[1]:
+                    if all(s[i] == x for i, x in when) and e[pos[lab]] != shown[val]:
+                        return False
             else:
                 _, party, x = rule
                 if s[self.parties.index(party)] == x and e[pos[party]] != val:
@@ -100,9 +97,10 @@ class _World:
             key, val = k, v
             while rule is not None:  # up the chain of read-outs active at s, to a free variable
                 if rule[0] == "inner":
-                    if not all(s[i] == x for i, x in rule[2]):
+                    on = [(lab, shown) for lab, when, shown in rule[1] if all(s[i] == x for i, x in when)]
+                    if not on:  # (several read-outs: at most one is active at s, their settings differ)
                         break
-                    key, val = rule[1], rule[3][val]
+                    key, val = on[0][0], on[0][1][val]
                 else:
                     _, party, x = rule
                     if s[self.parties.index(party)] != x:
@@ -327,25 +325,32 @@ def check_model(theory: Theory, spec, pattern: SupportPattern, support: dict) ->
     return problems
 
 
-def _chain(sc, o, absolute) -> tuple | None:
+def _chain(sc, o, absolute) -> tuple:
     """The checker's own reading of a read-out chain (written apart from nogo.events on purpose).
 
     Walk from *o* to the labs that hold it until one is present (a party, or
-    an observer declared absolute): the outcome shown there, and the
-    settings at which every link of the chain reads its observer out.
+    an observer declared absolute): for each branch (one per read-out setting
+    of each link, several when an observer is read out at several settings),
+    the outcome shown there and the settings at which every link reads its
+    observer out; branches asking one setting for two values are dropped.
     """
     names = list(sc.party_names)
     inner = {x.name: x for x in sc.inner}
-    shown = {v: v for v in o.outcomes}
-    when: list[tuple[int, str]] = []
-    cur = o
-    while cur.read_out_at is not None:
+    out = []
+    todo = [(o, {v: v for v in o.outcomes}, ())]
+    while todo:
+        cur, shown, when = todo.pop()
         outer = inner.get(cur.lab)
         lab_outs = outer.outcomes if outer is not None else sc.parties[names.index(cur.lab)].outcomes
-        shown = {k: lab_outs[cur.relabel[cur.outcomes.index(v)]] for k, v in shown.items()}
-        if not (cur.read_out_at == "always" and outer is not None and not outer.settings):
-            when.append((names.index(cur.lab), cur.read_out_at))
-        if outer is None or cur.lab in absolute:
-            return ("inner", cur.lab, tuple(when), shown)
-        cur = outer
-    return None
+        for at, relabel in cur.read_outs:
+            now = {k: lab_outs[relabel[cur.outcomes.index(v)]] for k, v in shown.items()}
+            w = when
+            if at != "always":  # (refused on a party; inside an observer it drops the condition)
+                if any(i == names.index(cur.lab) and x != at for i, x in when):
+                    continue
+                w = when + ((names.index(cur.lab), at),)
+            if outer is None or cur.lab in absolute:
+                out.append((cur.lab, w, now))
+            else:
+                todo.append((outer, now, w))
+    return ("inner", out)
