@@ -13,8 +13,8 @@ Support-only clauses (``reading: supports``, possibilistic local agency) are
 not convex: they are refused unless the bundle's probabilistic clauses imply
 them (:func:`nogo.supports.refuse_support_only`), and then dropped as
 redundant — never read as equal marginals.  Read-out chains of nested
-observers are walked here afresh (:func:`_chain`), not taken from
-:mod:`nogo.events`.
+observers and several read-outs are walked afresh
+(:func:`nogo.readout_walk.walk_read_outs`), not taken from :mod:`nogo.events`.
 """
 
 from __future__ import annotations
@@ -24,6 +24,7 @@ import itertools
 import z3
 
 from .inequality import Inequality
+from .readout_walk import walk_read_outs
 from .supports import refuse_support_only
 from .theory import (Absolute, Counterfactual, Factorise, Hidden, Independent, Predetermined, SupportIndependent,
                      Theory)
@@ -44,7 +45,7 @@ def implies_z3(theory: Theory, spec: str | list[str], ineq: Inequality, timeout_
                 counterfactual.update(c.parties)
     # (name, outcomes, kind, extra)
     ev = [(p.name if p.choice_of is None else f"{p.name}.choice", p.outcomes, "party", None) for p in sc.parties]
-    ev += [(o.name, o.outcomes, "inner", _chain(sc, o, absolute)) for o in sc.inner if o.name in absolute]
+    ev += [(o.name, o.outcomes, "inner", walk_read_outs(sc, o, absolute)) for o in sc.inner if o.name in absolute]
     ev += [(f"{p.name}@{x}", p.outcomes, "latent", (p.name, x)) for p in sc.parties if p.name in counterfactual
            for x in p.settings]
     names = [e[0] for e in ev]
@@ -97,36 +98,3 @@ def implies_z3(theory: Theory, spec: str | list[str], ineq: Inequality, timeout_
     if res == z3.unknown:
         raise TimeoutError("z3 gave no answer in time")
     return res == z3.unsat
-
-
-def _chain(sc, o, absolute) -> list[tuple]:
-    """[(event shown, [(settings index, setting)], own outcome -> shown outcome)] for a present observer.
-
-    Walks the labs holding *o* until a present one (a party, or an observer
-    declared absolute); every link's read-out setting joins the condition
-    (``always``, only ever inside an observer, adds none).  An observer
-    read out at several settings (``read_out_at: [x, y]``) branches, one
-    chain per setting with its own relabelling; combinations whose
-    conditions contradict are dropped.  A chain that meets an observer that
-    reads nothing out gives nothing.
-    """
-    names = list(sc.party_names)
-    inner = {x.name: x for x in sc.inner}
-    out = []
-    todo = [(o, {v: v for v in o.outcomes}, ())]
-    while todo:
-        cur, shown, when = todo.pop()
-        outer = inner.get(cur.lab)
-        outs = outer.outcomes if outer is not None else sc.parties[names.index(cur.lab)].outcomes
-        for at, relabel in cur.read_outs:
-            sh = {k: outs[relabel[cur.outcomes.index(v)]] for k, v in shown.items()}
-            w = when
-            if at != "always":  # (refused on a party; inside an observer it drops the condition)
-                if any(i == names.index(cur.lab) and x != at for i, x in when):
-                    continue
-                w = when + ((names.index(cur.lab), at),)
-            if outer is None or cur.lab in absolute:
-                out.append((cur.lab, w, sh))
-            else:
-                todo.append((outer, sh, w))
-    return out

@@ -105,12 +105,17 @@ claims:
 """
 
 
+def _referee_text(tmp_path_factory, name: str, text: str):
+    d = tmp_path_factory.mktemp(name)
+    path = d / f"{name}.yaml"
+    path.write_text(text)
+    cf, verdicts, _ = referee(path)
+    return cf, verdicts, path, d
+
+
 @pytest.fixture(scope="module")
 def decided(tmp_path_factory):
-    d = tmp_path_factory.mktemp("referee")
-    path = d / "published.yaml"
-    path.write_text(PUBLISHED)
-    cf, verdicts, seconds = referee(path)
+    cf, verdicts, path, d = _referee_text(tmp_path_factory, "published", PUBLISHED)
     return cf, {v.claim_id: v for v in verdicts}, path, d
 
 
@@ -560,10 +565,7 @@ claims:
 def nested_bundle(tmp_path_factory):
     from nogo.referee.evidence import write_bundle
 
-    d = tmp_path_factory.mktemp("nested-referee")
-    path = d / "nested.yaml"
-    path.write_text(NESTED)
-    cf, verdicts, _ = referee(path)
+    cf, verdicts, path, d = _referee_text(tmp_path_factory, "nested", NESTED)
     out = d / "evidence"
     write_bundle(out, str(path), verdicts, claims_meta(cf))
     return {v.claim_id: v for v in verdicts}, out

@@ -5,7 +5,9 @@ printed proof or model; it does not use the SAT encoding, the solver, the
 propagation or the compiler's helpers, so a bug there cannot hide here.
 Which events are present, which joint assignments obey the read-out rules
 and what each independence assumption allows are re-derived from the
-declarations in this file.
+declarations in this file (read-out chains by
+:func:`nogo.readout_walk.walk_read_outs`, shared with the other independent
+checkers, never with the compiler).
 
 A proof is accepted only if every step is a correct local inference from
 the fact or assumption it names and from statements of *earlier* steps it
@@ -18,6 +20,7 @@ from __future__ import annotations
 import itertools
 from typing import Any
 
+from ..readout_walk import walk_read_outs
 from ..theory import Absolute, Counterfactual, Factorise, Hidden, Independent, Predetermined, Theory
 from .support import SupportPattern
 
@@ -54,7 +57,7 @@ class _World:
             (p.name if p.choice_of is None else f"{p.name}.choice", p.outcomes, None) for p in sc.parties]
         for o in sc.inner:
             if o.name in absolute:
-                ev.append((o.name, o.outcomes, _chain(sc, o, absolute)))
+                ev.append((o.name, o.outcomes, ("inner", walk_read_outs(sc, o, absolute))))
         for p in sc.parties:
             if p.name in cf:
                 for x in p.settings:
@@ -323,34 +326,3 @@ def check_model(theory: Theory, spec, pattern: SupportPattern, support: dict) ->
                     problems.append(f"'{a.name}': the support of {[w.names[i] for i in idx]} differs between "
                                     f"{s} and {t} (e.g. {diff})")
     return problems
-
-
-def _chain(sc, o, absolute) -> tuple:
-    """The checker's own reading of a read-out chain (written apart from nogo.events on purpose).
-
-    Walk from *o* to the labs that hold it until one is present (a party, or
-    an observer declared absolute): for each branch (one per read-out setting
-    of each link, several when an observer is read out at several settings),
-    the outcome shown there and the settings at which every link reads its
-    observer out; branches asking one setting for two values are dropped.
-    """
-    names = list(sc.party_names)
-    inner = {x.name: x for x in sc.inner}
-    out = []
-    todo = [(o, {v: v for v in o.outcomes}, ())]
-    while todo:
-        cur, shown, when = todo.pop()
-        outer = inner.get(cur.lab)
-        lab_outs = outer.outcomes if outer is not None else sc.parties[names.index(cur.lab)].outcomes
-        for at, relabel in cur.read_outs:
-            now = {k: lab_outs[relabel[cur.outcomes.index(v)]] for k, v in shown.items()}
-            w = when
-            if at != "always":  # (refused on a party; inside an observer it drops the condition)
-                if any(i == names.index(cur.lab) and x != at for i, x in when):
-                    continue
-                w = when + ((names.index(cur.lab), at),)
-            if outer is None or cur.lab in absolute:
-                out.append((cur.lab, w, now))
-            else:
-                todo.append((outer, now, w))
-    return ("inner", out)

@@ -10,7 +10,8 @@ the tuple where P's settings are moved to their first value.  Only the
 theory reader (:mod:`nogo.theory`, validation only) is shared.
 
 Nested observers, observers' own choices and several read-outs are read
-here afresh (:func:`_chains`, not :mod:`nogo.events`): an observer's choice
+apart from the compiler (:func:`nogo.readout_walk.walk_read_outs`, not
+:mod:`nogo.events`): an observer's choice
 is a setting variable held after the parties' settings with one outcome
 ``c`` (its event named ``NAME.choice``), and a present observer's read-out
 rules are the compositions of the links up to the first present lab, one
@@ -27,6 +28,8 @@ from __future__ import annotations
 import itertools
 from dataclasses import dataclass
 from fractions import Fraction
+
+from ..readout_walk import walk_read_outs
 
 
 class NotRebuilt(Exception):
@@ -65,43 +68,12 @@ def _present(scenario, assumptions) -> list[tuple[str, str, object]]:
             if isinstance(c, Counterfactual):
                 cf |= set(c.parties)
     out = [(p.name if p.choice_of is None else f"{p.name}.choice", "party", p) for p in scenario.parties]
-    out += [(o.name, "inner", _chains(scenario, o, absolute)) for o in scenario.inner if o.name in absolute]
+    out += [(o.name, "inner", (o.outcomes, walk_read_outs(scenario, o, absolute)))
+            for o in scenario.inner if o.name in absolute]
     for p in scenario.parties:
         if p.name in cf:
             out += [(f"{p.name}@{x}", "latent", (p, x)) for x in p.settings]
     return out
-
-
-def _chains(scenario, o, absolute) -> tuple:
-    """(o's outcomes, [(present lab, [(settings index, setting)], o's outcome -> the lab's shown)]).
-
-    Walks from *o* through the labs that hold it, one branch per read-out
-    setting of each link (``always``, only ever inside an observer, adds no
-    condition), to the first lab that is present: a party, or an observer
-    declared absolute.  Branches whose conditions ask one setting for two
-    values never hold and are dropped; a link without a read-out ends its branch.
-    """
-    names = [p.name for p in scenario.parties]
-    inner = {x.name: x for x in scenario.inner}
-    rules = []
-    todo = [(o, {v: v for v in o.outcomes}, ())]
-    while todo:
-        cur, shown, when = todo.pop()
-        lab = inner.get(cur.lab)
-        lab_outs = lab.outcomes if lab is not None else scenario.parties[names.index(cur.lab)].outcomes
-        for at, relabel in cur.read_outs:
-            now = {k: lab_outs[relabel[cur.outcomes.index(v)]] for k, v in shown.items()}
-            cond = when
-            if at != "always":
-                k = names.index(cur.lab)
-                if any(i == k and x != at for i, x in when):
-                    continue
-                cond = when + ((k, at),)
-            if lab is None or cur.lab in absolute:
-                rules.append((cur.lab, cond, now))
-            else:
-                todo.append((lab, now, cond))
-    return o.outcomes, rules
 
 
 def _outcomes(kind, info, scenario) -> tuple[str, ...]:
