@@ -301,3 +301,34 @@ def test_possibilistic_backend_reads_several_read_outs_and_its_checker_agrees(tm
     plain = load_theory_text(EVERY_2x2.replace(", relabel: {2: {+1: -1, -1: +1}}", ""), "plain.yaml")
     assert not decide_pattern(plain, "local-friendliness", load_pattern(tmp_path / "copy.yaml", plain.scenario)
                               ).contradiction
+
+
+def test_mixture_model_reads_several_read_outs_like_the_linear_one():
+    # the partially deterministic set (records fixed by a hidden variable and their lab's setting; the
+    # correspondence with local friendliness is stated for one read-out per lab in arXiv:2510.25127) with A's
+    # friend read out at settings 1 and 3, flipped at 3: its exact maxima equal local friendliness's here on
+    # the copy relation, CHSH versions, I3322 (Collins & Gisin, J. Phys. A 37, 1775 (2004)) and random
+    # inequalities (no published value for two read-outs: the check is the second compiler)
+    text = (T / "partly-determined-2x3.yaml").read_text().replace(
+        "A_in: {lab: A, outcomes: [+1, -1], read_out_at: 1}",
+        "A_in: {lab: A, outcomes: [+1, -1], read_out_at: [1, 3], relabel: {3: {+1: -1, -1: +1}}}")
+    text = text.replace("bundles:\n", """  agency-A: {independent: {events: [B, A_in, B_in], of: [A.setting]}}
+  agency-B: {independent: {events: [A, A_in, B_in], of: [B.setting]}}
+bundles:
+  lf: [absoluteness, agency-A, agency-B]
+""")
+    th = load_theory_text(text, "partly.yaml")
+    pd, lf = compile_bundle(th, "partly-determined"), compile_bundle(th, "lf")
+    assert pd.kind == "mixture" and lf.kind == "linear"
+    texts = ["<A1 B1> + <A3 B1> <= 0", "- <A1 B1> - <A3 B1> <= 0", "<A1 B1> + <A1 B2> + <A2 B1> - <A2 B2> <= 2",
+             "<A2 B2> + <A2 B3> + <A1 B2> - <A1 B3> <= 2",
+             "p_AB(+1 +1|1 1) + p_AB(+1 +1|1 2) + p_AB(+1 +1|1 3) + p_AB(+1 +1|2 1) + p_AB(+1 +1|2 2)"
+             " - p_AB(+1 +1|2 3) + p_AB(+1 +1|3 1) - p_AB(+1 +1|3 2) - p_A(+1|1) - 2 p_B(+1|1) - p_B(+1|2) <= 0"]
+    rng = np.random.default_rng(3)
+    for _ in range(6):
+        w = {c: int(rng.integers(-3, 4)) for c in th.scenario.coordinates()}
+        texts.append(" ".join(f"{'+' if v > 0 else '-'} {abs(v)} p({' '.join(a)}|{' '.join(s)})"
+                              for (s, a), v in w.items() if v).lstrip("+ ") + " <= 0")
+    got = [(_maximum(pd, th, t), _maximum(lf, th, t)) for t in texts]
+    assert all(a == b for a, b in got), got
+    assert [a for a, _ in got[:5]] == [0, 0, 2, 2, 0]
