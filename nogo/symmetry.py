@@ -393,7 +393,7 @@ def lift_to_model(model, gen: Generator) -> list[int] | None:
     if index is None:
         index = model.extra["_lift_index"] = {(s, tuple(sorted(ev))): j for j, (s, ev) in enumerate(cols)}
     known = {ev.name: ev for ev in sc.party_events() + sc.inner_events()
-             + [e for p in sc.labs for e in sc.latent_events(p.name)]}
+             + [e for p in sc.parties for e in sc.latent_events(p.name)]}
     events = [known[e] for e, _ in cols[0][1]] if cols else []
     got = _inner_values(sc, events, gen)
     if got is None:
