@@ -428,7 +428,8 @@ def _read_out_settings(spec, path, raw, in_party: bool, lab, lab_settings) -> li
     for i, v in enumerate(raw):
         w = raw.where(i, f"{path}.read_out_at") if isinstance(raw, YList) else rw
         if isinstance(v, (dict, list, bool)) or v is None:
-            raise InputError(f"'read_out_at' lists {v!r}, which is not a setting label", w)
+            raise InputError(f"'read_out_at' lists {v!r}, which is not a setting label", w,
+                             f"list settings of '{lab}', for example read_out_at: [1, 3]")
         x = str(v)
         if x == ALWAYS:
             raise InputError(f"'{ALWAYS}' cannot be one of several read-out settings", w,
