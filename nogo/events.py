@@ -68,6 +68,11 @@ def read_out_rules(scenario: Scenario, events: list[EventVar]) -> list[ReadOut]:
     the first present lab, active when every link's condition holds (at
     other settings the absent link is unconstrained, so nothing remains).  A
     chain that meets an absent observer without a read-out rule ends there.
+    An observer read out at several settings gives one rule per setting,
+    each with its own relabelling; through an absent lab read out at
+    several settings, every combination of links whose conditions can hold
+    together gives one composed rule.  At any settings tuple a source has at
+    most one active rule (its links' settings are distinct).
     Counterfactual outcomes ``A@x`` give "A = A@x when A's setting is x".
     """
     present = {ev.name for ev in events}
@@ -76,29 +81,24 @@ def read_out_rules(scenario: Scenario, events: list[EventVar]) -> list[ReadOut]:
         if ev.kind == "latent":
             pi = scenario.party_index(ev.party)
             out.append(ReadOut(ev.party, ev.name, tuple(range(len(ev.outcomes))), ((pi, ev.setting),)))
-            continue
-        if ev.kind != "inner":
-            continue
-        o = scenario.observer(ev.name)
-        shown = tuple(range(len(o.outcomes)))
-        when: dict[int, str] = {}
-        via: list[str] = []
-        cur = o
-        while True:
-            cond = scenario.read_out_when(cur)
-            if cond is None:
-                break
-            shown = tuple(cur.relabel[i] for i in shown)
-            clash = any(when.get(k, x) != x for k, x in cond)
-            when.update(dict(cond))
-            if clash:
-                break  # the links never hold together: nothing to compose
-            if cur.lab in present:
-                out.append(ReadOut(cur.lab, o.name, shown, tuple(sorted(when.items())), tuple(via)))
-                break
-            via.append(cur.lab)
-            cur = scenario.observer(cur.lab)
+        elif ev.kind == "inner":
+            o = scenario.observer(ev.name)
+            _walk(scenario, o.name, o, tuple(range(len(o.outcomes))), {}, [], present, out)
     return out
+
+
+def _walk(scenario: Scenario, source: str, cur, shown: tuple[int, ...], when: dict[int, str], via: list[str],
+          present: set[str], out: list[ReadOut]) -> None:
+    """Follow every read-out of *cur* (one per read-out setting) up to the first present lab."""
+    for cond, relabel in scenario.read_out_links(cur):
+        if any(when.get(k, x) != x for k, x in cond):
+            continue  # the links never hold together: nothing to compose
+        sh = tuple(relabel[i] for i in shown)
+        w = {**when, **dict(cond)}
+        if cur.lab in present:
+            out.append(ReadOut(cur.lab, source, sh, tuple(sorted(w.items())), tuple(via)))
+        else:
+            _walk(scenario, source, scenario.observer(cur.lab), sh, w, via + [cur.lab], present, out)
 
 
 def read_out_ok(scenario: Scenario, events: list[EventVar], s: tuple[str, ...], e: tuple[str, ...]) -> bool:

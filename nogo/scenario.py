@@ -60,6 +60,13 @@ class InnerObserver:
     relabel: tuple[int, ...]
     settings: tuple[str, ...] = ()  # the observer's own choices (a setting variable NAME.setting)
     party: str = ""  # the party whose lab holds the chain of labs (== lab unless nested)
+    # every read-out as (setting of the lab, relabel at that setting); the first is (read_out_at, relabel)
+    read_outs: tuple[tuple[str, tuple[int, ...]], ...] = ()
+
+    @property
+    def several(self) -> bool:
+        """Is the observer read out at more than one setting of its lab (``read_out_at: [x, y, ...]``)?"""
+        return len(self.read_outs) > 1
 
 
 @dataclass(frozen=True)
@@ -122,16 +129,25 @@ class Scenario:
 
     @property
     def nested(self) -> bool:
-        """Does any observer sit inside another's lab, or choose a setting of its own?"""
-        return any(o.lab != o.party or o.settings for o in self.inner)
+        """Is the scenario beyond one read-out per observer at one level?  An observer inside another's
+        lab, an observer with a choice of its own, or an observer read out at several settings."""
+        return any(o.lab != o.party or o.settings or o.several for o in self.inner)
 
     def read_out_when(self, o: InnerObserver) -> tuple[tuple[int, str], ...] | None:
-        """When *o* is read out: (settings-tuple index, setting) pairs; () = every run; None = never."""
-        if o.read_out_at is None:
-            return None
-        if o.read_out_at == ALWAYS and not (o.lab in self.party_names and self.party(o.lab).choice_of is None):
-            return ()
-        return ((self.party_index(o.lab), o.read_out_at),)
+        """When *o* is read out (its first read-out): (settings-tuple index, setting) pairs; () = every
+        run; None = never.  :meth:`read_out_links` gives every read-out of an observer."""
+        links = self.read_out_links(o)
+        return links[0][0] if links else None
+
+    def read_out_links(self, o: InnerObserver) -> list[tuple[tuple[tuple[int, str], ...], tuple[int, ...]]]:
+        """Every read-out of *o* by its lab: (condition, relabel) with condition as in :meth:`read_out_when`."""
+        out = []
+        for x, rel in o.read_outs:
+            if x == ALWAYS and not (o.lab in self.party_names and self.party(o.lab).choice_of is None):
+                out.append(((), rel))
+            else:
+                out.append((((self.party_index(o.lab), x),), rel))
+        return out
 
     def setting_tuples(self) -> list[tuple[str, ...]]:
         self._guard_size()
@@ -178,6 +194,8 @@ class Scenario:
         for o in self.inner:
             if o.read_out_at == ALWAYS and self.read_out_when(o) == ():
                 ro = f", read out by {o.lab} in every run"
+            elif o.several:
+                ro = f", read out at {o.lab}'s settings {', '.join(x for x, _ in o.read_outs)}"
             else:
                 ro = f", read out at {o.lab}'s setting {o.read_out_at}" if o.read_out_at is not None else ""
             where = f"lab {o.lab}" if o.lab == o.party else f"the lab of {o.lab} (inside {o.party}'s lab)"
@@ -379,36 +397,83 @@ def _read_observer(name, spec, inner_raw, parties: list[Party], done: dict[str, 
         if ALWAYS in own:
             raise InputError(f"'{ALWAYS}' cannot be a setting label", spec.where("settings", f"{path}.settings"),
                              "it is the word for a read-out in every run")
-    ro = spec.get("read_out_at")
-    if ro is not None:
-        ro = str(ro)
-        rw = spec.where("read_out_at", f"{path}.read_out_at")
-        if ro == ALWAYS and outer is None:
-            raise InputError(f"a party's outcome is read out at one of its settings, not '{ALWAYS}'", rw,
-                             suggest(ro, lab_settings) or f"one of {list(lab_settings)}")
-        if ro != ALWAYS and ro not in lab_settings:
-            what = "party" if outer is None else "inner observer"
-            hint = (suggest(ro, lab_settings) or f"one of {list(lab_settings)}") if lab_settings else (
-                f"'{lab}' chooses no setting: write read_out_at: {ALWAYS}, or give '{lab}' settings of its own")
-            raise InputError(f"{what} '{lab}' has no setting '{ro}'", rw, hint)
-    relabel = _relabel(name, spec, path, w, outs, lab, lab_outcomes, ro)
-    return InnerObserver(str(name), lab, outs, ro, relabel, own, top)
+    ro_raw = spec.get("read_out_at")
+    ats = _read_out_settings(spec, path, ro_raw, outer is None, lab, lab_settings)
+    if isinstance(ro_raw, list):
+        rels = _relabels_at(name, spec, path, w, outs, lab, lab_outcomes, ats)
+        read_outs = tuple(zip(ats, rels))
+        ro, relabel = read_outs[0]
+    else:
+        ro = ats[0] if ats else None
+        relabel = _relabel(name, spec, path, w, outs, lab, lab_outcomes, ro)
+        read_outs = ((ro, relabel),) if ro is not None else ()
+    return InnerObserver(str(name), lab, outs, ro, relabel, own, top, read_outs)
+
+
+def _read_out_settings(spec, path, raw, in_party: bool, lab, lab_settings) -> list[str]:
+    """The settings of ``read_out_at`` (one label, ``always`` or a list of distinct labels), each checked."""
+    from .yamlread import YList
+
+    if raw is None:
+        return []
+    rw = spec.where("read_out_at", f"{path}.read_out_at")
+    if not isinstance(raw, list):
+        if isinstance(raw, (dict, bool)):
+            raise InputError(f"'read_out_at' must be a setting of '{lab}', a list of them or '{ALWAYS}', "
+                             f"not {raw!r}", rw, f"for example read_out_at: 1 or read_out_at: [1, 3]")
+        return [_read_out_setting(str(raw), rw, in_party, lab, lab_settings)]
+    if not raw:
+        raise InputError("'read_out_at' lists no setting", rw, "for example read_out_at: [1, 3]")
+    out: list[str] = []
+    for i, v in enumerate(raw):
+        w = raw.where(i, f"{path}.read_out_at") if isinstance(raw, YList) else rw
+        if isinstance(v, (dict, list, bool)) or v is None:
+            raise InputError(f"'read_out_at' lists {v!r}, which is not a setting label", w,
+                             f"list settings of '{lab}', for example read_out_at: [1, 3]")
+        x = str(v)
+        if x == ALWAYS:
+            raise InputError(f"'{ALWAYS}' cannot be one of several read-out settings", w,
+                             f"write read_out_at: {ALWAYS} alone, or list settings of '{lab}'")
+        if x in out:
+            raise InputError(f"'read_out_at' names setting {x} twice", w, "list each read-out setting once")
+        out.append(_read_out_setting(x, w, in_party, lab, lab_settings))
+    return out
+
+
+def _read_out_setting(ro: str, rw: Where, in_party: bool, lab, lab_settings) -> str:
+    if ro == ALWAYS and in_party:
+        raise InputError(f"a party's outcome is read out at one of its settings, not '{ALWAYS}'", rw,
+                         suggest(ro, lab_settings) or f"one of {list(lab_settings)}")
+    if ro != ALWAYS and ro not in lab_settings:
+        what = "party" if in_party else "inner observer"
+        hint = (suggest(ro, lab_settings) or f"one of {list(lab_settings)}") if lab_settings else (
+            f"'{lab}' chooses no setting: write read_out_at: {ALWAYS}, or give '{lab}' settings of its own")
+        raise InputError(f"{what} '{lab}' has no setting '{ro}'", rw, hint)
+    return ro
 
 
 def _relabel(name, spec, path, w, outs, lab, lab_outcomes, ro) -> tuple[int, ...]:
     """``relabel[i]``: index of the lab's outcome shown when the observer has outcome i."""
     relabel_raw = spec.get("relabel")
     if relabel_raw is None:
-        if ro is not None and (len(outs) != len(lab_outcomes) or set(outs) != set(lab_outcomes)):
-            raise InputError(
-                f"read-out needs a 'relabel' map: '{name}' has outcomes {', '.join(outs)}, "
-                f"'{lab}' has {', '.join(lab_outcomes)}", w,
-                "say which outcome of the lab each observer outcome shows, e.g. relabel: {0: +1, 1: -1}")
-        # the same labels: matched by label, never by position
-        return tuple(lab_outcomes.index(o) if o in lab_outcomes else i for i, o in enumerate(outs))
+        return _same_labels(name, w, outs, lab, lab_outcomes, ro is not None)
     rw = spec.where("relabel", f"{path}.relabel")
     if not isinstance(relabel_raw, dict):
         raise InputError("'relabel' maps each observer outcome to the lab's outcome it shows", rw)
+    return _relabel_of(relabel_raw, rw, outs, lab, lab_outcomes)
+
+
+def _same_labels(name, w, outs, lab, lab_outcomes, read_out: bool) -> tuple[int, ...]:
+    """No ``relabel``: the observer shows its own label (matched by label, never by position)."""
+    if read_out and (len(outs) != len(lab_outcomes) or set(outs) != set(lab_outcomes)):
+        raise InputError(
+            f"read-out needs a 'relabel' map: '{name}' has outcomes {', '.join(outs)}, "
+            f"'{lab}' has {', '.join(lab_outcomes)}", w,
+            "say which outcome of the lab each observer outcome shows, e.g. relabel: {0: +1, 1: -1}")
+    return tuple(lab_outcomes.index(o) if o in lab_outcomes else i for i, o in enumerate(outs))
+
+
+def _relabel_of(relabel_raw, rw: Where, outs, lab, lab_outcomes) -> tuple[int, ...]:
     m = _relabel_map(relabel_raw, rw)
     rel = []
     for o in outs:
@@ -424,19 +489,61 @@ def _relabel(name, spec, path, w, outs, lab, lab_outcomes, ro) -> tuple[int, ...
     return tuple(rel)
 
 
+def _relabels_at(name, spec, path, w, outs, lab, lab_outcomes, ats: list[str]) -> list[tuple[int, ...]]:
+    """One relabelling per read-out setting (``read_out_at: [x, ...]``), each a permutation.
+
+    ``relabel`` is absent (the observer's labels are the lab's), one outcome map (the same at
+    every listed setting), or a map from listed settings to outcome maps (a listed setting it does
+    not name shows the observer's labels unchanged).
+    """
+    raw = spec.get("relabel")
+    rw = spec.where("relabel", f"{path}.relabel") if raw is not None else w
+    if raw is not None and not isinstance(raw, dict):
+        raise InputError("'relabel' maps each observer outcome to the lab's outcome it shows, or each "
+                         "read-out setting to such a map", rw, "for example relabel: {3: {+1: -1, -1: +1}}")
+    nested = raw is not None and any(isinstance(v, dict) for v in raw.values())
+    if nested and not all(isinstance(v, dict) for v in raw.values()):
+        raise InputError("'relabel' mixes outcome labels and per-setting maps", rw,
+                         "either one map of outcomes, or {setting: {outcome: outcome}} for each setting")
+    per: dict[str, tuple[int, ...]] = {}
+    if nested:
+        for k, v in raw.items():
+            kw = raw.where(k, f"{path}.relabel.{k}") if hasattr(raw, "where") else rw
+            if str(k) not in ats:
+                raise InputError(f"'relabel' names setting {k}, which is not a read-out setting of '{name}'", kw,
+                                 f"the read-out settings are {ats}")
+            per[str(k)] = _relabel_of(v, kw, outs, lab, lab_outcomes)
+    out = []
+    for x in ats:
+        if x in per:
+            rel = per[x]
+        elif raw is not None and not nested:
+            rel = _relabel_of(raw, rw, outs, lab, lab_outcomes)
+        else:
+            rel = _same_labels(name, w, outs, lab, lab_outcomes, True)
+        if sorted(rel) != list(range(len(lab_outcomes))):
+            shown = [lab_outcomes[i] for i in rel]
+            raise InputError(f"the relabelling of '{name}' at setting {x} is not a permutation of the outcomes of "
+                             f"'{lab}': it shows {shown} for {list(outs)}", rw,
+                             "at several read-out settings each lab outcome is shown by exactly one observer "
+                             "outcome; write read_out_at: X (one setting) for a relabelling that merges outcomes")
+        out.append(rel)
+    return out
+
+
 def _one_reader_per_setting(inner: list[InnerObserver], inner_raw) -> None:
     """Two observers read out at the same setting of the same lab would force contradictory
     (or redundant) equalities; refuse rather than guess (``always`` clashes with everything)."""
     seen: dict[str, list[tuple[str, str]]] = {}
     for o in inner:
-        if o.read_out_at is None:
-            continue
-        for other, at in seen.get(o.lab, []):
-            if at == o.read_out_at or ALWAYS in (at, o.read_out_at):
-                raise InputError(
-                    f"inner observers '{other}' and '{o.name}' are both read out at setting {o.read_out_at} of '{o.lab}'"
-                    if at == o.read_out_at != ALWAYS else
-                    f"'{other}' and '{o.name}' are both read out by '{o.lab}', and one of them in every run",
-                    inner_raw.where(o.name, f"scenario.inner_observers.{o.name}.read_out_at"),
-                    "an outcome can follow only one observer at a given setting")
-        seen.setdefault(o.lab, []).append((o.name, o.read_out_at))
+        for x, _ in o.read_outs:
+            for other, at in seen.get(o.lab, []):
+                if at == x or ALWAYS in (at, x):
+                    raise InputError(
+                        f"inner observers '{other}' and '{o.name}' are both read out at setting {x} of '{o.lab}'"
+                        if at == x != ALWAYS else
+                        f"'{other}' and '{o.name}' are both read out by '{o.lab}', and one of them in every run",
+                        inner_raw.where(o.name, f"scenario.inner_observers.{o.name}.read_out_at"),
+                        "an outcome can follow only one observer at a given setting: read the other "
+                        "observer out at a setting of its own")
+        seen.setdefault(o.lab, []).extend((o.name, x) for x, _ in o.read_outs)

@@ -13,8 +13,8 @@ Support-only clauses (``reading: supports``, possibilistic local agency) are
 not convex: they are refused unless the bundle's probabilistic clauses imply
 them (:func:`nogo.supports.refuse_support_only`), and then dropped as
 redundant — never read as equal marginals.  Read-out chains of nested
-observers are walked here afresh (:func:`_chain`), not taken from
-:mod:`nogo.events`.
+observers and several read-outs are walked afresh
+(:func:`nogo.readout_walk.walk_read_outs`), not taken from :mod:`nogo.events`.
 """
 
 from __future__ import annotations
@@ -24,6 +24,7 @@ import itertools
 import z3
 
 from .inequality import Inequality
+from .readout_walk import walk_read_outs
 from .supports import refuse_support_only
 from .theory import (Absolute, Counterfactual, Factorise, Hidden, Independent, Predetermined, SupportIndependent,
                      Theory)
@@ -44,7 +45,7 @@ def implies_z3(theory: Theory, spec: str | list[str], ineq: Inequality, timeout_
                 counterfactual.update(c.parties)
     # (name, outcomes, kind, extra)
     ev = [(p.name if p.choice_of is None else f"{p.name}.choice", p.outcomes, "party", None) for p in sc.parties]
-    ev += [(o.name, o.outcomes, "inner", _chain(sc, o, absolute)) for o in sc.inner if o.name in absolute]
+    ev += [(o.name, o.outcomes, "inner", walk_read_outs(sc, o, absolute)) for o in sc.inner if o.name in absolute]
     ev += [(f"{p.name}@{x}", p.outcomes, "latent", (p.name, x)) for p in sc.parties if p.name in counterfactual
            for x in p.settings]
     names = [e[0] for e in ev]
@@ -61,10 +62,10 @@ def implies_z3(theory: Theory, spec: str | list[str], ineq: Inequality, timeout_
             total.append(v)
             broken = False
             for k, (name, outs, kind, extra) in enumerate(ev):
-                if kind == "inner" and extra is not None:
-                    lab, when, shown = extra
-                    if all(s[i] == x for i, x in when):
-                        broken |= e[names.index(lab)] != shown[e[k]]
+                if kind == "inner":
+                    for lab, when, shown in extra:
+                        if all(s[i] == x for i, x in when):
+                            broken |= e[names.index(lab)] != shown[e[k]]
                 if kind == "latent":
                     pi = sc.party_names.index(extra[0])
                     broken |= s[pi] == extra[1] and e[pi] != e[k]
@@ -97,28 +98,3 @@ def implies_z3(theory: Theory, spec: str | list[str], ineq: Inequality, timeout_
     if res == z3.unknown:
         raise TimeoutError("z3 gave no answer in time")
     return res == z3.unsat
-
-
-def _chain(sc, o, absolute) -> tuple | None:
-    """(event shown, [(settings index, setting)], own outcome -> shown outcome) for a present observer.
-
-    Walks the labs holding *o* until a present one (a party, or an observer
-    declared absolute); every link's read-out setting joins the condition
-    (``always`` inside an observer without choices adds none).  None: the
-    chain meets an observer that reads nothing out.
-    """
-    names = list(sc.party_names)
-    inner = {x.name: x for x in sc.inner}
-    shown = {v: v for v in o.outcomes}
-    when = []
-    cur = o
-    while cur.read_out_at is not None:
-        outer = inner.get(cur.lab)
-        outs = outer.outcomes if outer is not None else sc.parties[names.index(cur.lab)].outcomes
-        shown = {k: outs[cur.relabel[cur.outcomes.index(v)]] for k, v in shown.items()}
-        if not (outer is not None and cur.read_out_at == "always" and not outer.settings):
-            when.append((names.index(cur.lab), cur.read_out_at))
-        if outer is None or cur.lab in absolute:
-            return cur.lab, tuple(when), shown
-        cur = outer
-    return None

@@ -105,12 +105,17 @@ claims:
 """
 
 
+def _referee_text(tmp_path_factory, name: str, text: str):
+    d = tmp_path_factory.mktemp(name)
+    path = d / f"{name}.yaml"
+    path.write_text(text)
+    cf, verdicts, _ = referee(path)
+    return cf, verdicts, path, d
+
+
 @pytest.fixture(scope="module")
 def decided(tmp_path_factory):
-    d = tmp_path_factory.mktemp("referee")
-    path = d / "published.yaml"
-    path.write_text(PUBLISHED)
-    cf, verdicts, seconds = referee(path)
+    cf, verdicts, path, d = _referee_text(tmp_path_factory, "published", PUBLISHED)
     return cf, {v.claim_id: v for v in verdicts}, path, d
 
 
@@ -532,3 +537,119 @@ def test_every_version_needs_its_evidence(bundle, tmp_path):
     _edit(ev, "lf-chsh-read-out", lambda d: d["checks"].pop(17))
     bad = _failures(ev, "lf-chsh-read-out")
     assert any("1 of the 64 versions have no evidence" in b for b in bad), bad
+
+
+# -- nested observers, observers' choices and several read-outs: rebuilt by the checker's own code ------
+NESTED = f"""
+title: nested claims
+claims:
+  - id: nested-chsh
+    theory: {T}/friends-2x3-nested.yaml
+    implies: {{bundle: local-friendliness, inequality: CHSH, versions: read-out}}
+  - id: nested-deep-chsh
+    theory: {T}/friends-2x3-nested.yaml
+    implies: {{bundle: local-friendliness-deep, inequality: CHSH, versions: read-out}}
+  - id: nested-chsh-altered
+    theory: {T}/friends-2x3-nested.yaml
+    implies: {{bundle: local-friendliness, inequality: CHSH, versions: no-read-out}}
+  - id: choice-chsh
+    theory: {T}/friends-2x2-choice.yaml
+    implies: {{bundle: local-friendliness, inequality: "p(+1 +1 c|1 1 1) - p(+1 -1 c|1 1 1) - p(-1 +1 c|1 1 1) + p(-1 -1 c|1 1 1) + p(+1 +1 c|1 2 1) - p(+1 -1 c|1 2 1) - p(-1 +1 c|1 2 1) + p(-1 -1 c|1 2 1) + p(+1 +1 c|2 1 1) - p(+1 -1 c|2 1 1) - p(-1 +1 c|2 1 1) + p(-1 -1 c|2 1 1) - p(+1 +1 c|2 2 1) + p(+1 -1 c|2 2 1) + p(-1 +1 c|2 2 1) - p(-1 -1 c|2 2 1) <= 2"}}
+  - id: two-readouts-chsh
+    theory: {T}/friends-2x3-two-readouts.yaml
+    implies: {{bundle: local-friendliness, inequality: CHSH, versions: all}}
+"""
+
+
+@pytest.fixture(scope="module")
+def nested_bundle(tmp_path_factory):
+    from nogo.referee.evidence import write_bundle
+
+    cf, verdicts, path, d = _referee_text(tmp_path_factory, "nested", NESTED)
+    out = d / "evidence"
+    write_bundle(out, str(path), verdicts, claims_meta(cf))
+    return {v.claim_id: v for v in verdicts}, out
+
+
+def test_nested_claims_confirmed_and_refuted_and_rechecked_without_solvers(nested_bundle):
+    v, out = nested_bundle
+    # the chain collapses to one friend per lab: LF implies the 64 CHSH versions with a read-out setting and
+    # not the 8 without (K.-W. Bong et al., Nature Physics 16, 1199 (2020), arXiv:1907.05607), through A_out
+    # present or absent
+    assert v["nested-chsh"].status == "CONFIRMED" and v["nested-chsh"].details["versions"] == 64
+    assert v["nested-deep-chsh"].status == "CONFIRMED" and v["nested-deep-chsh"].details["versions"] == 64
+    assert v["nested-chsh-altered"].status == "REFUTED"
+    assert set(v["nested-chsh-altered"].details["maxima"]) == {"4"}  # the PR-box value on the free settings
+    # CHSH in joint probabilities at A_f's setting 1: A = A_f = A_g at A's setting 1 and B = B_in at B's 1, two
+    # settings each with a read-out, so the CHSH bound 2 holds (Clauser, Horne, Shimony, Holt, PRL 23, 880
+    # (1969); Bong et al. 2020 for two settings each)
+    assert v["choice-chsh"].status == "CONFIRMED"
+    # every pair of A's settings holds 1 or 3, both read out from one record: all 72 versions bounded
+    assert v["two-readouts-chsh"].status == "CONFIRMED" and v["two-readouts-chsh"].details["versions"] == 72
+    code = ("import json, sys\n"
+            "from nogo.referee.verify import verify_bundle\n"
+            f"r = verify_bundle({str(out)!r})\n"
+            "bad = ('highspy', 'scipy', 'pysat', 'z3', 'cvxpy', 'cdd', 'nogo.compile', 'nogo.events', 'nogo.linear',"
+            " 'nogo.mixture')\n"
+            "loaded = sorted(m for m in sys.modules if any(m == b or m.startswith(b + '.') for b in bad))\n"
+            "print(json.dumps({'ok': r.ok, 'loaded': loaded, 'uncovered': [u for c in r.claims for u in c.uncovered],"
+            " 'checked': {c.claim_id: len(c.checked) for c in r.claims}}))\n")
+    res = json.loads(subprocess.run([sys.executable, "-c", code], cwd=ROOT, capture_output=True, text=True,
+                                    check=True).stdout)
+    assert res["loaded"] == [] and res["ok"] and res["uncovered"] == []
+    assert res["checked"]["nested-chsh"] == 64 and res["checked"]["two-readouts-chsh"] == 72
+
+
+def test_nested_model_with_a_column_breaking_the_chain_is_rejected(nested_bundle, tmp_path):
+    _, out = nested_bundle
+    dst = _copy(out, tmp_path)
+
+    def break_chain(doc):  # A shows A_deep at A's setting 1 (through the absent A_out): break one column
+        rec = next(r for r in doc["models"].values() if "A_deep" in r["events"])
+        ia, idp = rec["events"].index("A"), rec["events"].index("A_deep")
+        s, vals = next(c for c in rec["columns"] if c[0][0] == "1")
+        vals[idp] = "-1" if vals[ia] == "+1" else "+1"
+    _edit(dst, "nested-deep-chsh", break_chain)
+    assert any("not allowed by the read-out rules" in x for x in _failures(dst, "nested-deep-chsh"))
+
+
+@pytest.mark.parametrize("name, bundle", [("friends-2x3-nested.yaml", "local-friendliness"),
+                                          ("friends-2x3-nested.yaml", "local-friendliness-deep"),
+                                          ("friends-2x2-choice.yaml", "local-friendliness"),
+                                          ("friends-2x2-choice.yaml", "local-friendliness-outer"),
+                                          ("friends-2x3-two-readouts.yaml", "local-friendliness")])
+def test_checker_rows_and_compiled_rows_describe_one_model(name, bundle):
+    # two implementations of the semantics (DEVELOPERS.md): the same present events and columns, and the
+    # compiled rows follow from the rebuilt ones (same row space over the same columns), exactly
+    from fractions import Fraction
+
+    import flint
+
+    from nogo.compile import compile_bundle
+    from nogo.referee.rows import rebuild
+    from nogo.theory import load_theory
+
+    th = load_theory(T / name)
+    _, assumptions = th.resolve(bundle)
+    own = rebuild(th, [a.name for a in assumptions])
+    model = compile_bundle(th, bundle)
+    names = list(model.columns[0].events)
+    assert sorted(names) == sorted(own.events)
+    perm = [names.index(e) for e in own.events]
+    to_own = [own.index[(c.settings, tuple(c.values[i] for i in perm))] for c in model.columns]
+    assert sorted(to_own) == list(range(len(own.columns)))
+
+    def q(x):
+        x = Fraction(x)
+        return flint.fmpq(x.numerator, x.denominator)
+
+    def rank(rows):
+        M = flint.fmpq_mat(len(rows), len(own.columns) + 1)
+        for i, (r, b) in enumerate(rows):
+            for j, x in r.items():
+                M[i, j] = q(x)
+            M[i, len(own.columns)] = q(b)
+        return M.rank()
+    mine = list(zip(own.rows, own.rhs))
+    theirs = [({to_own[j]: x for j, x in r.items()}, b) for r, b in zip(model.rows, model.rhs)]
+    assert rank(mine) == rank(theirs) == rank(mine + theirs)

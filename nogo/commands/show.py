@@ -38,7 +38,8 @@ def run(args) -> int:
         emit_json({"theory": shown_path(args.theory), "title": th.title,
                    "parties": {p.name: {"settings": list(p.settings), "outcomes": list(p.outcomes)}
                                for p in th.scenario.labs},
-                   "inner_observers": {o.name: {"lab": o.lab, "read_out_at": o.read_out_at,
+                   "inner_observers": {o.name: {"lab": o.lab,
+                                                "read_out_at": [x for x, _ in o.read_outs] if o.several else o.read_out_at,
                                                 **({"settings": list(o.settings)} if o.settings else {}),
                                                 **({"party": o.party} if o.party != o.lab else {})}
                                        for o in th.scenario.inner},

@@ -101,50 +101,12 @@ def _deterministic_vertices(scenario: Scenario, spec: GroupSpec, cap: int,
             var_index[(ev.name, k)] = len(var_dom)
             var_dom.append(ev.outcomes)
     names = [ev.name for ev in events]
-    # read-out couplings: (later var, earlier var, allowed pairs (later value, earlier value))
-    checks: dict[int, dict[int, set]] = {}
-    outs = {ev.name: ev.outcomes for ev in events}
-    rules = read_out_rules(scenario, list(events))  # chains resolved in nogo.events
-    for s in settings:
-        for r in rules:
-            if not r.active(s):
-                continue
-            allowed = {(outs[r.target][r.shown[k]], v) for k, v in enumerate(outs[r.source])}
-            u, w = var_index[(r.target, key(r.target, s))], var_index[(r.source, key(r.source, s))]
-            if u == w:
-                continue
-            # store on the later variable; pairs oriented (later, earlier)
-            if u < w:
-                u, w = w, u
-                allowed = {(y, x) for x, y in allowed}
-            cur = checks.setdefault(u, {}).get(w)
-            checks[u][w] = allowed if cur is None else cur & allowed
-    n = len(var_dom)
+    checks = _read_out_checks(scenario, events, settings, var_index, key)
     if not checks:  # no read-out coupling: every assignment counts
         total = math.prod(len(d) for d in var_dom)
         if total > cap:
             return total
-    found: list[tuple[str, ...]] = []
-    assign: list[str | None] = [None] * n
-
-    def rec(i):
-        if len(found) > cap:
-            return
-        if i == n:
-            found.append(tuple(assign))  # type: ignore[arg-type]
-            return
-        for v in var_dom[i]:
-            ok = True
-            for w, allowed in checks.get(i, {}).items():
-                if (v, assign[w]) not in allowed:
-                    ok = False
-                    break
-            if ok:
-                assign[i] = v
-                rec(i + 1)
-        assign[i] = None
-
-    rec(0)
+    found = _backtrack(var_dom, checks, cap)
     if len(found) > cap:
         return len(found)
     cells = _cells(scenario, events, only)
@@ -158,6 +120,49 @@ def _deterministic_vertices(scenario: Scenario, spec: GroupSpec, cap: int,
             vec[cell_index[(s, e)]] = one
         verts.append(tuple(vec))
     return GroupVertices(tuple(cells), tuple(verts), "deterministic responses listed directly")
+
+
+def _read_out_checks(scenario: Scenario, events, settings, var_index, key) -> dict[int, dict[int, set]]:
+    """Read-out couplings: {later var: {earlier var: allowed pairs (later value, earlier value)}}."""
+    checks: dict[int, dict[int, set]] = {}
+    outs = {ev.name: ev.outcomes for ev in events}
+    rules = read_out_rules(scenario, list(events))  # chains resolved in nogo.events
+    for s in settings:
+        for r in rules:
+            if not r.active(s):
+                continue
+            allowed = {(outs[r.target][r.shown[k]], v) for k, v in enumerate(outs[r.source])}
+            u, w = var_index[(r.target, key(r.target, s))], var_index[(r.source, key(r.source, s))]
+            if u == w:
+                continue
+            if u < w:  # store on the later variable; pairs oriented (later, earlier)
+                u, w = w, u
+                allowed = {(y, x) for x, y in allowed}
+            cur = checks.setdefault(u, {}).get(w)
+            checks[u][w] = allowed if cur is None else cur & allowed
+    return checks
+
+
+def _backtrack(var_dom: list[tuple[str, ...]], checks: dict[int, dict[int, set]], cap: int) -> list[tuple[str, ...]]:
+    """Every assignment of the variables that passes *checks* (stops once more than *cap* are found)."""
+    n = len(var_dom)
+    found: list[tuple[str, ...]] = []
+    assign: list[str | None] = [None] * n
+
+    def rec(i):
+        if len(found) > cap:
+            return
+        if i == n:
+            found.append(tuple(assign))  # type: ignore[arg-type]
+            return
+        for v in var_dom[i]:
+            if all((v, assign[w]) in allowed for w, allowed in checks.get(i, {}).items()):
+                assign[i] = v
+                rec(i + 1)
+        assign[i] = None
+
+    rec(0)
+    return found
 
 
 def _polytope_vertices(scenario: Scenario, spec: GroupSpec, max_cells: int) -> GroupVertices | str:

@@ -5,7 +5,9 @@ printed proof or model; it does not use the SAT encoding, the solver, the
 propagation or the compiler's helpers, so a bug there cannot hide here.
 Which events are present, which joint assignments obey the read-out rules
 and what each independence assumption allows are re-derived from the
-declarations in this file.
+declarations in this file (read-out chains by
+:func:`nogo.readout_walk.walk_read_outs`, shared with the other independent
+checkers, never with the compiler).
 
 A proof is accepted only if every step is a correct local inference from
 the fact or assumption it names and from statements of *earlier* steps it
@@ -18,6 +20,7 @@ from __future__ import annotations
 import itertools
 from typing import Any
 
+from ..readout_walk import walk_read_outs
 from ..theory import Absolute, Counterfactual, Factorise, Hidden, Independent, Predetermined, Theory
 from .support import SupportPattern
 
@@ -49,12 +52,12 @@ class _World:
                     absolute.update(c.events)
                 elif isinstance(c, Counterfactual):
                     cf.update(c.parties)
-        # (name, outcomes, rule) with rule = None | ("inner", shown event, [(setting index, setting)], own -> shown)
+        # (name, outcomes, rule) with rule = None | ("inner", [(shown event, [(setting index, setting)], own -> shown)])
         ev: list[tuple[str, tuple[str, ...], Any]] = [
             (p.name if p.choice_of is None else f"{p.name}.choice", p.outcomes, None) for p in sc.parties]
         for o in sc.inner:
             if o.name in absolute:
-                ev.append((o.name, o.outcomes, _chain(sc, o, absolute)))
+                ev.append((o.name, o.outcomes, ("inner", walk_read_outs(sc, o, absolute))))
         for p in sc.parties:
             if p.name in cf:
                 for x in p.settings:
@@ -70,9 +73,9 @@ class _World:
             if rule is None:
                 continue
             if rule[0] == "inner":
-                _, lab, when, shown = rule
-                if all(s[i] == x for i, x in when) and e[pos[lab]] != shown[val]:
-                    return False
+                for lab, when, shown in rule[1]:
+                    if all(s[i] == x for i, x in when) and e[pos[lab]] != shown[val]:
+                        return False
             else:
                 _, party, x = rule
                 if s[self.parties.index(party)] == x and e[pos[party]] != val:
@@ -97,9 +100,10 @@ class _World:
             key, val = k, v
             while rule is not None:  # up the chain of read-outs active at s, to a free variable
                 if rule[0] == "inner":
-                    if not all(s[i] == x for i, x in rule[2]):
+                    on = [(lab, shown) for lab, when, shown in rule[1] if all(s[i] == x for i, x in when)]
+                    if not on:  # (several read-outs: at most one is active at s, their settings differ)
                         break
-                    key, val = rule[1], rule[3][val]
+                    key, val = on[0][0], on[0][1][val]
                 else:
                     _, party, x = rule
                     if s[self.parties.index(party)] != x:
@@ -322,27 +326,3 @@ def check_model(theory: Theory, spec, pattern: SupportPattern, support: dict) ->
                     problems.append(f"'{a.name}': the support of {[w.names[i] for i in idx]} differs between "
                                     f"{s} and {t} (e.g. {diff})")
     return problems
-
-
-def _chain(sc, o, absolute) -> tuple | None:
-    """The checker's own reading of a read-out chain (written apart from nogo.events on purpose).
-
-    Walk from *o* to the labs that hold it until one is present (a party, or
-    an observer declared absolute): the outcome shown there, and the
-    settings at which every link of the chain reads its observer out.
-    """
-    names = list(sc.party_names)
-    inner = {x.name: x for x in sc.inner}
-    shown = {v: v for v in o.outcomes}
-    when: list[tuple[int, str]] = []
-    cur = o
-    while cur.read_out_at is not None:
-        outer = inner.get(cur.lab)
-        lab_outs = outer.outcomes if outer is not None else sc.parties[names.index(cur.lab)].outcomes
-        shown = {k: lab_outs[cur.relabel[cur.outcomes.index(v)]] for k, v in shown.items()}
-        if not (cur.read_out_at == "always" and outer is not None and not outer.settings):
-            when.append((names.index(cur.lab), cur.read_out_at))
-        if outer is None or cur.lab in absolute:
-            return ("inner", cur.lab, tuple(when), shown)
-        cur = outer
-    return None

@@ -173,7 +173,7 @@ def _catalog_file(ctx: Context, claim: Claim, v: Verdict) -> None:
 # -- implications -------------------------------------------------------------------
 def _uses_read_out(ineq) -> bool:
     sc = ineq.scenario
-    ro = {(o.lab, o.read_out_at) for o in sc.inner if o.read_out_at is not None}
+    ro = {(o.lab, x) for o in sc.inner for x, _ in o.read_outs}  # every read-out setting
     return any((p, s[i]) in ro for (s, _), c in ineq.coeffs.items() if c for i, p in enumerate(sc.party_names))
 
 
@@ -289,6 +289,11 @@ def decide_minimal(ctx: Context, claim: Claim, v: Verdict) -> None:
             v.details["smaller"] = sorted(res.smaller.subset)
 
 
+def settle(v: Verdict, status: str, summary: str, account: str) -> None:
+    """The verdict's status, one-line summary and account in words."""
+    v.status, v.summary, v.account = status, summary, account
+
+
 def decide_not_needed(ctx: Context, claim: Claim, v: Verdict) -> None:
     th = ctx.theory(claim.theory)
     ineq = inequality(ctx, claim)
@@ -305,10 +310,10 @@ def decide_not_needed(ctx: Context, claim: Claim, v: Verdict) -> None:
     record(v, mid, ineq, r, "claim")
     rs = "{" + ", ".join(rest) + "}"
     if r.implied:
-        v.status, v.summary = "CONFIRMED", f"without {drop}, {rs} still implies it"
-        v.account = (f"Dropping '{drop}' leaves {rs}, which still implies the inequality: exact maximum "
-                     f"{q(r.maximum)} <= {q(ineq.bound)}, with a Farkas certificate.")
+        settle(v, "CONFIRMED", f"without {drop}, {rs} still implies it",
+               f"Dropping '{drop}' leaves {rs}, which still implies the inequality: exact maximum "
+               f"{q(r.maximum)} <= {q(ineq.bound)}, with a Farkas certificate.")
     else:
-        v.status, v.summary = "REFUTED", f"without {drop} the set allows {q(r.maximum)} > {q(ineq.bound)}"
-        v.account = (f"'{drop}' is needed: {rs} allows an exact behaviour reaching {q(r.maximum)}, above the bound "
-                     f"{q(ineq.bound)}.")
+        settle(v, "REFUTED", f"without {drop} the set allows {q(r.maximum)} > {q(ineq.bound)}",
+               f"'{drop}' is needed: {rs} allows an exact behaviour reaching {q(r.maximum)}, above the bound "
+               f"{q(ineq.bound)}.")

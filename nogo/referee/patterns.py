@@ -11,7 +11,7 @@ from __future__ import annotations
 from fractions import Fraction
 
 from .claims import Claim, bundle_spec, bundle_text
-from .decide import Context, bound_check, decided, use_model
+from .decide import Context, bound_check, decided, settle, use_model
 from .evidence import Verdict, model_record
 
 
@@ -30,12 +30,11 @@ def decide_pattern_claim(ctx: Context, claim: Claim, v: Verdict) -> None:
     res = decide_pattern(th, bundle_spec(claim.params["bundle"]), pat, minimise="smallest", time_limit=20.0)
     k = claim.params.get("facts")
     if not res.contradiction:
-        v.status, v.summary = "REFUTED", f"the pattern is consistent with {b}"
-        v.account = (f"No contradiction: a support satisfying every assumption of {b} and every fact of the pattern "
-                     f"exists (the largest one, accepted by nogo's independent support checker).")
-        v.details = {"model": {",".join(s): [",".join(e) for e in es] for s, es in (res.model or {}).items()}}
-        v.checks.append({"type": "trusted", "role": "claim", "what": "the consistent support",
-                         "why": "the support-level checker of nogo.possibilistic re-checked it in the deciding run"})
+        _consistent(v, b, f"No contradiction: a support satisfying every assumption of {b} and every fact of the "
+                    f"pattern exists (the largest one, accepted by nogo's independent support checker).",
+                    {"model": {",".join(s): [",".join(e) for e in es] for s, es in (res.model or {}).items()}},
+                    "the consistent support",
+                    "the support-level checker of nogo.possibilistic re-checked it in the deciding run")
         return
     facts = [g for g in res.core if g.kind in ("possible", "impossible")]
     v.details = {"core_size": len(res.core), "facts": len(facts), "smallest_proven": res.smallest_proven,
@@ -45,21 +44,19 @@ def decide_pattern_claim(ctx: Context, claim: Claim, v: Verdict) -> None:
         v.details["proof_markdown"] = to_markdown(res.proof, {n: a.says for n, a in th.assumptions.items()})
         v.details["proof"] = res.proof.to_dict()
     _pattern_certificate(v, ctx, claim, [(g.kind, g.settings, g.outcomes) for g in facts])
-    if k is None or len(facts) <= k:
-        v.status = "CONFIRMED"
-        v.summary = f"contradiction from {len(facts)} facts" + (f" (at most {k} claimed)" if k else "")
-        v.account = (f"No support obeys {b} and the pattern: unit propagation over a core of {len(res.core)} "
-                     f"constraints ({len(facts)} observed facts) derives a contradiction; the proof steps are in the "
-                     f"evidence. As an exact cross-check the same facts force the possible events' probabilities to "
-                     f"zero in the bundle's linear model (Farkas certificate).")
-    elif res.smallest_proven:
-        v.status, v.summary = "REFUTED", f"the smallest contradiction needs {len(facts)} facts, more than {k}"
-        v.account = (f"The smallest unsatisfiable core (proven smallest by the hitting-set search) uses {len(facts)} "
-                     f"facts, more than the claimed {k}.")
+    if _within(v, len(facts), k, f"No support obeys {b} and the pattern: unit propagation over a core of "
+               f"{len(res.core)} constraints ({len(facts)} observed facts) derives a contradiction; the proof steps "
+               f"are in the evidence. As an exact cross-check the same facts force the possible events' "
+               f"probabilities to zero in the bundle's linear model (Farkas certificate)."):
+        return
+    if res.smallest_proven:
+        settle(v, "REFUTED", f"the smallest contradiction needs {len(facts)} facts, more than {k}",
+               f"The smallest unsatisfiable core (proven smallest by the hitting-set search) uses {len(facts)} "
+               f"facts, more than the claimed {k}.")
     else:
-        v.status, v.summary = "NOT DECIDED", f"found a contradiction with {len(facts)} facts; smaller not excluded"
-        v.account = (f"The smallest-core search stopped at its time limit with a core of {len(facts)} facts "
-                     f"(lower bound {res.lower_bound} constraints); the claim of at most {k} is neither shown nor refuted.")
+        settle(v, "NOT DECIDED", f"found a contradiction with {len(facts)} facts; smaller not excluded",
+               f"The smallest-core search stopped at its time limit with a core of {len(facts)} facts "
+               f"(lower bound {res.lower_bound} constraints); the claim of at most {k} is neither shown nor refuted.")
 
 
 def _decide_pattern_responses(ctx, claim, v, th, pat, b) -> None:
@@ -69,12 +66,10 @@ def _decide_pattern_responses(ctx, claim, v, th, pat, b) -> None:
     res = decide_responses(th, bundle_spec(claim.params["bundle"]), pat)
     k = claim.params.get("facts")
     if not res.contradiction:
-        v.status, v.summary = "REFUTED", f"the pattern is consistent with {b}"
-        v.account = (f"Responses of the mixture of {b} that produce no impossible event still produce every possible "
-                     f"event ({len(res.model)} survive), so the pattern can occur.")
-        v.details = {"surviving_responses": res.model}
-        v.checks.append({"type": "trusted", "role": "claim", "what": "the surviving responses",
-                         "why": "re-checked by nogo.possibilistic.responses in the deciding run"})
+        _consistent(v, b, f"Responses of the mixture of {b} that produce no impossible event still produce every "
+                    f"possible event ({len(res.model)} survive), so the pattern can occur.",
+                    {"surviving_responses": res.model}, "the surviving responses",
+                    "re-checked by nogo.possibilistic.responses in the deciding run")
         return
     facts = [("impossible", s, a) for s, a in res.facts] + [("possible",) + tuple(res.event)]
     v.details = {"facts": len(facts), "exclusions": len(res.exclusions),
@@ -82,17 +77,30 @@ def _decide_pattern_responses(ctx, claim, v, th, pat, b) -> None:
     v.notation = "; ".join(f"p({','.join(a)}|{','.join(s)}) {'> 0' if kind == 'possible' else '= 0'}"
                            for kind, s, a in facts)
     _pattern_certificate(v, ctx, claim, facts)
-    if k is None or len(facts) <= k:
-        v.status = "CONFIRMED"
-        v.summary = f"contradiction from {len(facts)} facts" + (f" (at most {k} claimed)" if k else "")
-        v.account = (f"Every response of the mixture of {b} that could produce the possible event "
-                     f"p({','.join(res.event[1])}|{','.join(res.event[0])}) would also produce one of "
-                     f"{len(res.facts)} impossible events, so it has weight zero; as an exact cross-check the same "
-                     f"facts force that probability to zero (Farkas certificate over the responses' weights).")
-    else:
+    if not _within(v, len(facts), k, f"Every response of the mixture of {b} that could produce the possible event "
+                   f"p({','.join(res.event[1])}|{','.join(res.event[0])}) would also produce one of "
+                   f"{len(res.facts)} impossible events, so it has weight zero; as an exact cross-check the same "
+                   f"facts force that probability to zero (Farkas certificate over the responses' weights)."):
         v.status, v.summary = "NOT DECIDED", f"found a contradiction with {len(facts)} facts; smaller not searched"
         v.account = ("The response reading covers the excluded responses greedily; a smaller set of facts is not "
                      f"excluded, so 'at most {k}' is neither shown nor refuted.")
+
+
+def _consistent(v: Verdict, b: str, account: str, details: dict, what: str, why: str) -> None:
+    """The pattern can occur under the bundle: the claim of a contradiction is refuted."""
+    v.status, v.summary = "REFUTED", f"the pattern is consistent with {b}"
+    v.account, v.details = account, details
+    v.checks.append({"type": "trusted", "role": "claim", "what": what, "why": why})
+
+
+def _within(v: Verdict, n: int, k, account: str) -> bool:
+    """A contradiction from *n* facts confirms a claim of at most *k* (or of any number when k is None)."""
+    if k is not None and n > k:
+        return False
+    v.status = "CONFIRMED"
+    v.summary = f"contradiction from {n} facts" + (f" (at most {k} claimed)" if k else "")
+    v.account = account
+    return True
 
 
 def _pattern_certificate(v, ctx, claim, facts) -> None:

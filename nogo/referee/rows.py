@@ -9,6 +9,16 @@ settings of P" equates the marginal of E's present events at s with that at
 the tuple where P's settings are moved to their first value.  Only the
 theory reader (:mod:`nogo.theory`, validation only) is shared.
 
+Nested observers, observers' own choices and several read-outs are read
+apart from the compiler (:func:`nogo.readout_walk.walk_read_outs`, not
+:mod:`nogo.events`): an observer's choice
+is a setting variable held after the parties' settings with one outcome
+``c`` (its event named ``NAME.choice``), and a present observer's read-out
+rules are the compositions of the links up to the first present lab, one
+per combination of read-out settings whose conditions can hold together
+(the rule of projection applied to deterministic equalities; DEVELOPERS.md,
+"Nested observers and observers' choices").
+
 Hidden-variable kinds are not rebuilt here: :class:`NotRebuilt` says so, and
 the checker reports those checks as not covered.
 """
@@ -18,6 +28,8 @@ from __future__ import annotations
 import itertools
 from dataclasses import dataclass
 from fractions import Fraction
+
+from ..readout_walk import walk_read_outs
 
 
 class NotRebuilt(Exception):
@@ -46,8 +58,6 @@ def _present(scenario, assumptions) -> list[tuple[str, str, object]]:
     """(name, kind, info) of the present events in the order parties, inner observers, latent outcomes."""
     from ..theory import Absolute, Counterfactual, Factorise, Hidden, Independent, Predetermined
 
-    if getattr(scenario, "nested", False):  # chains of read-outs, observers' choices: not rebuilt here
-        raise NotRebuilt("nested observers and observers' own choices are not rebuilt by this checker")
     absolute, cf = set(), set()
     for a in assumptions:
         for c in a.clauses:
@@ -57,8 +67,9 @@ def _present(scenario, assumptions) -> list[tuple[str, str, object]]:
                 absolute |= set(c.events)
             if isinstance(c, Counterfactual):
                 cf |= set(c.parties)
-    out = [(p.name, "party", p) for p in scenario.parties]
-    out += [(o.name, "inner", o) for o in scenario.inner if o.name in absolute]
+    out = [(p.name if p.choice_of is None else f"{p.name}.choice", "party", p) for p in scenario.parties]
+    out += [(o.name, "inner", (o.outcomes, walk_read_outs(scenario, o, absolute)))
+            for o in scenario.inner if o.name in absolute]
     for p in scenario.parties:
         if p.name in cf:
             out += [(f"{p.name}@{x}", "latent", (p, x)) for x in p.settings]
@@ -69,7 +80,7 @@ def _outcomes(kind, info, scenario) -> tuple[str, ...]:
     if kind == "party":
         return info.outcomes
     if kind == "inner":
-        return info.outcomes
+        return info[0]
     return info[0].outcomes
 
 
@@ -89,11 +100,9 @@ def rebuild(theory, names: list[str], facts: list[tuple[tuple[str, ...], tuple[s
 
     def allowed(s, e) -> bool:
         for name, kind, info in ev:
-            if kind == "inner" and info.read_out_at is not None:
-                li = pnames.index(info.lab)
-                if s[li] == info.read_out_at:
-                    shown = sc.parties[li].outcomes[info.relabel[info.outcomes.index(e[pos[name]])]]
-                    if e[li] != shown:
+            if kind == "inner":
+                for lab, cond, shown in info[1]:
+                    if all(s[i] == x for i, x in cond) and e[pos[lab]] != shown[e[pos[name]]]:
                         return False
             if kind == "latent":
                 p, x = info

@@ -263,7 +263,7 @@ def _versions(cl: _Claim, which: str) -> set | None:
     if tfile is None or "inequality" not in params:
         return None
     sc = load_theory(cl.folder / tfile).scenario
-    ro = {(o.lab, o.read_out_at) for o in sc.inner if o.read_out_at is not None}
+    ro = {(o.lab, x) for o in sc.inner for x, _ in o.read_outs}  # every read-out setting
 
     def uses(x):
         return any((p, st[i]) in ro for (st, _), c in x.coeffs.items() if c for i, p in enumerate(sc.party_names))
