@@ -183,3 +183,12 @@ def pull_back(ineq, plan: Plan | None = None):
         coeffs[key] = coeffs.get(key, 0) + c
     coeffs = {k: v for k, v in coeffs.items() if v}
     return Inequality(rs, coeffs, ineq.bound, ineq.name, source=ineq.source, sense=ineq.sense, shift=ineq.shift)
+
+
+def reduction_note(scenario: Scenario, plan: Plan) -> str:
+    """In words: the Bell scenario of the readings, and whether it is exact or a relaxation."""
+    labs = "; ".join(f"{lab.lab}: {', '.join(r.label for r in lab.readings)}" for lab in plan.labs)
+    exact = not any(r.before for lab in plan.labs for r in lab.readings)
+    return ("observers choose: each lab's outcome comes from one of its measurements (" + labs + "); "
+            "bounded on that Bell scenario, " + ("whose quantum behaviours are exactly the declared ones"
+                                                  if exact else "a relaxation (some readings are dephased)"))
