@@ -127,6 +127,8 @@ class Experiment:
         """
         plan = self.plan
         i = self.scenario.party_index(party)
+        if self.scenario.parties[i].choice_of is not None:
+            raise ValueError(f"{party} is an observer's choice, not a lab: it has no measurement")
         lab = plan.labs[i]
         if len(lab.variables) > 1:
             raise ValueError(f"lab {party}'s measurement depends on the choices of "

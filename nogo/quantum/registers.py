@@ -30,6 +30,7 @@ from ..inequality import Coord
 from ..scenario import ALWAYS
 from .born import behaviour_array
 from .experiment import Experiment
+from .inner import record_unitary
 
 
 def _op_on(dims: list[int], targets: list[int], M: np.ndarray) -> np.ndarray:
@@ -41,11 +42,6 @@ def _op_on(dims: list[int], targets: list[int], M: np.ndarray) -> np.ndarray:
     inv = list(np.argsort(order))
     T = full.reshape([dims[i] for i in order] * 2).transpose(inv + [n + i for i in inv])
     return T.reshape(prod(dims), prod(dims))
-
-
-def _record(Q, m: int) -> np.ndarray:
-    X = np.roll(np.eye(m), 1, axis=0)
-    return sum(np.kron(Qk, np.linalg.matrix_power(X, k)) for k, Qk in enumerate(Q))
 
 
 def _copy(relabel: tuple[int, ...], n: int) -> np.ndarray:
@@ -89,7 +85,7 @@ class _Lab:
         m = self._measurement(node, own)
         if m is None:  # an observer with no measurement given does not measure
             return U.conj().T @ U
-        return _op_on(self.dims, [0, j], _record(m.projectors, self.outs[node])) @ U.conj().T @ U
+        return _op_on(self.dims, [0, j], record_unitary(m.projectors)) @ U.conj().T @ U
 
     def povm(self, assign: dict[str, str]) -> np.ndarray:
         V = self.process(self.nodes[0], assign)
