@@ -169,12 +169,12 @@ class Experiment:
             return m
         if not r.chain:
             raise InputError(f"no measurement for {r.measurer} at setting {r.setting}", where)
-        at = f"at its setting {r.setting}" if r.setting else "in every run it is not read"
+        at = f" at its setting {r.setting}" if r.setting else ""
         if r.setting is None:
             how = f"add 'inner_observers: {{{r.measurer}: Z}}' or similar"
         else:
             how = f"add 'inner_observers: {{{r.measurer}: {{{r.setting}: Z}}}}' or similar"
-        raise InputError(f"inner observer {r.measurer} needs a measurement {at} (its record is read out by "
+        raise InputError(f"inner observer {r.measurer} needs a measurement{at} (its record is read out by "
                          f"{' -> '.join(r.chain[1:] + (party,))})", where, how)
 
     def _check_not_measuring(self, where) -> None:
