@@ -241,6 +241,7 @@ def test_quantum_command_on_the_choice_theory(capsys):
     bundle, = data["bundles"]
     assert bundle["inside"] is False and "separating" in bundle
     assert abs(bundle["critical_visibility"] - 2 ** -0.5) < 1e-6
+    assert "A's outcome at A=1, A_f.setting=1: A_g's measurement, its record read out through A_f" in data["readings"]
     assert {tuple(row["settings"]) for row in data["behaviour"]} == {("1", "1", "1"), ("1", "1", "2"),
                                                                        ("1", "2", "1"), ("1", "2", "2"),
                                                                        ("2", "1", "1"), ("2", "1", "2"),

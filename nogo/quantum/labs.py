@@ -89,9 +89,6 @@ class Plan:
     labs: tuple[LabPlan, ...]
     which: tuple[tuple[int, ...], ...]  # per settings tuple (scenario order): the reading index of each lab
 
-    def readings_at(self, k: int) -> list[Reading]:
-        return [lab.readings[r] for lab, r in zip(self.labs, self.which[k])]
-
 
 def _children(scenario: Scenario) -> dict[str, list[InnerObserver]]:
     kids: dict[str, list[InnerObserver]] = {}
@@ -192,3 +189,17 @@ def reduction_note(scenario: Scenario, plan: Plan) -> str:
     return ("observers choose: each lab's outcome comes from one of its measurements (" + labs + "); "
             "bounded on that Bell scenario, " + ("whose quantum behaviours are exactly the declared ones"
                                                   if exact else "a relaxation (some readings are dephased)"))
+
+
+def describe_plan(scenario: Scenario, plan: Plan) -> list[str]:
+    """What each lab's outcome comes from, per assignment of its setting variables, in the user's names."""
+    lines = []
+    for j, lab in enumerate(plan.labs):
+        seen: dict[tuple[str, ...], int] = {}
+        for s, r in zip(scenario.setting_tuples(), plan.which):
+            seen.setdefault(tuple(s[k] for k in lab.variables), r[j])
+        for combo, r in seen.items():
+            at = ", ".join(f"{scenario.parties[k].name}{'.setting' if scenario.parties[k].choice_of else ''}={x}"
+                           for k, x in zip(lab.variables, combo))
+            lines.append(f"{lab.lab}'s outcome at {at}: {lab.readings[r].words()}")
+    return lines
