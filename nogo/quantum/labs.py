@@ -97,14 +97,13 @@ def _children(scenario: Scenario) -> dict[str, list[InnerObserver]]:
     return kids
 
 
-def _resolve(node: str, outcomes: int, own: str | None, kids, assignment: dict[str, str],
-             sc: Scenario) -> Reading:
+def _resolve(node: str, outcomes: int, own: str | None, kids, assignment: dict[str, str]) -> Reading:
     """The reading of *node* (party or observer) given the settings of the lab's choosers."""
     mine = kids.get(node, [])
     reader = next((c for c in mine if c.read_out_at == ALWAYS or (own is not None and c.read_out_at == own)), None)
     if reader is None:
         return Reading(node, own, tuple(range(outcomes)))
-    inner = _resolve(reader.name, len(reader.outcomes), assignment.get(reader.name), kids, assignment, sc)
+    inner = _resolve(reader.name, len(reader.outcomes), assignment.get(reader.name), kids, assignment)
     earlier = mine[:mine.index(reader)]
     for c in earlier:
         if kids.get(c.name) or c.settings:
@@ -131,7 +130,7 @@ def lab_plan(scenario: Scenario) -> Plan:
         table: dict[tuple[str, ...], int] = {}
         for combo in itertools.product(*(scenario.parties[k].settings for k in variables)):
             assignment = {scenario.parties[k].name: x for k, x in zip(variables, combo)}
-            r = _resolve(p.name, len(p.outcomes), combo[0], kids, assignment, scenario)
+            r = _resolve(p.name, len(p.outcomes), combo[0], kids, assignment)
             if r not in readings:
                 readings.append(r)
             table[combo] = readings.index(r)
