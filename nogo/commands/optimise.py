@@ -54,17 +54,22 @@ def _yaml_of(exp, values, target: str | None = None) -> str:
         amps = ", ".join(f"'{float(z.real)!r} + {float(z.imag)!r}*i'" for z in exp.state.vector)
         lines.append(f"state: {{vector: [{amps}], dims: {list(exp.state.dims)}}}")
     lines.append("measurements:")
-    for p in exp.scenario.parties:
+    for p in exp.scenario.labs:
         items = []
         for x in p.settings:
             if (p.name, x) in exp.measurements:
                 m = exp.measurements[(p.name, x)]
                 items.append(f"{x}: {_meas(m)}")
         lines.append(f"  {p.name}: {{{', '.join(items)}}}")
-    if exp.inner:
+    if exp.inner or exp.inner_at:
         lines.append("inner_observers:")
         for name, m in exp.inner.items():
             lines.append(f"  {name}: {_meas(m)}")
+        chooser = {}
+        for (name, x), m in exp.inner_at.items():  # an observer's own settings, like a party's
+            chooser.setdefault(name, []).append(f"{x}: {_meas(m)}")
+        for name, items in chooser.items():
+            lines.append(f"  {name}: {{{', '.join(items)}}}")
     return "\n".join(lines) + "\n"
 
 

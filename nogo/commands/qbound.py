@@ -68,6 +68,8 @@ def run(args) -> int:
         gap = f"   gap to the experiment {b.value - best.float_value:.6g}" if best else ""
         print(f"level {b.level:<6} moment matrix {b.size:>3}  SDP {w(float(b.value)):.9f}  {cert}  ({b.solver}, "
               f"{b.seconds:.2f} s){gap}")
+    for note in dict.fromkeys(n for b in out for n in b.notes):
+        print(f"note        {note}")
     if best:
         from ..report import quantum_value
 

@@ -158,7 +158,13 @@ def run(args) -> int:
     L = [f"experiment  {exp_file}" + (f"  ({exp.title})" if exp.title else ""),
          f"theory      {th_file}",
          f"state       {exp.state.label}; inputs {'exact' if exp.is_exact else 'numeric only (no certified verdicts)'}",
-         "", "behaviour (Born rule):"]
+         ""]
+    if sc.nested:
+        from ..quantum.labs import describe_plan
+
+        L += ["what each lab's outcome comes from (nested observers, own choices):"]
+        L += ["  " + line for line in describe_plan(sc, exp.plan)] + [""]
+    L += ["behaviour (Born rule):"]
     L += _behaviour_table(sc, fb, eb)
     L += ["", "inequalities (values of the left side as written):"]
     L += _inequality_lines(values, shown)
@@ -172,10 +178,13 @@ def run(args) -> int:
 
 
 def _json_report(exp, exp_file, th_file, fb, eb, shown, robust) -> dict:
+    from ..quantum.labs import describe_plan
+
     sc = exp.scenario
     return {
         "experiment": exp_file, "title": exp.title, "theory": th_file,
         "state": exp.state.label, "exact_inputs": exp.is_exact,
+        **({"readings": describe_plan(sc, exp.plan)} if sc.nested else {}),
         "behaviour": [{"settings": list(s), "outcomes": list(a), "p": fb[(s, a)],
                        **({"exact": str(eb[(s, a)])} if eb else {})} for s, a in sc.coordinates()],
         "inequalities": shown,

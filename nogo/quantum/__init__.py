@@ -11,7 +11,10 @@ Public API (stable for other parts of nogo)::
 
 Layout: numbers (exact parsing, balls), states, measurements, experiment
 (declarations, effective measurements), born (numeric / exact / ball Born
-rule), inner (explicit register model), certify (values and verdicts with
+rule), labs (what yields a lab's outcome: read-out chains, undoing,
+observers' own choices; the Bell scenario of the readings), inner and
+registers (explicit register models, one observer level and nested),
+certify (values and verdicts with
 evidence), visibility (critical visibility LP and its dual inequality),
 optimise (settings for the largest violation), npa (upper bounds).
 """

@@ -41,23 +41,37 @@ def _einsum_spec(n: int) -> str:
     return f"{rho},{ops}->{''.join(a)}"
 
 
-def behaviour_array(rho: np.ndarray, dims: tuple[int, ...], povms: list[list[np.ndarray]]) -> np.ndarray:
+def behaviour_array(rho: np.ndarray, dims: tuple[int, ...], povms: list[list[np.ndarray]],
+                    which: tuple[tuple[int, ...], ...] | None = None) -> np.ndarray:
     """p over ``scenario.coordinates()`` order, from numeric operators.
 
-    ``povms[i][x]`` is an array (outcomes, d_i, d_i) for party i at its setting index x.
+    ``povms[i][r]`` is an array (outcomes, d_i, d_i) for lab i's r-th
+    measurement; ``which[k]`` names the measurement of each lab at the k-th
+    settings tuple (default: every combination, in order — a scenario whose
+    parties are its labs, one measurement per setting).  A choice party's
+    one outcome has probability one, so the outcome order is the labs'.
     """
     n = len(dims)
     R = rho.reshape(tuple(dims) * 2)
     spec = _einsum_spec(n)
+    if which is None:
+        which = itertools.product(*(range(len(p)) for p in povms))
     out = []
-    for xs in itertools.product(*(range(len(p)) for p in povms)):
+    for xs in which:
         ops = [povms[k][x] for k, x in enumerate(xs)]
         out.append(np.einsum(spec, R, *ops, optimize=False).real.reshape(-1))
     return np.concatenate(out)
 
 
 def numeric_povms(exp: Experiment) -> list[list[np.ndarray]]:
-    return [[np.array(m.projectors) for m in row] for row in exp.povms()]
+    """The labs' effective measurements as arrays, ``[lab][reading]`` (pair with ``exp.lab_rows()[1]``)."""
+    return [[np.array(m.projectors) for m in row] for row in exp.lab_rows()[0]]
+
+
+def behaviour_vector(exp: Experiment, rho: np.ndarray | None = None) -> np.ndarray:
+    """Float behaviour over ``scenario.coordinates()``, for the experiment's state or another *rho*."""
+    rho = exp.state.rho if rho is None else rho
+    return behaviour_array(rho, exp.state.dims, numeric_povms(exp), exp.lab_rows()[1])
 
 
 def behaviour(exp: Experiment) -> dict[Coord, float]:
@@ -68,12 +82,21 @@ def behaviour(exp: Experiment) -> dict[Coord, float]:
         exp = load_experiment("examples/experiments/chsh-singlet.yaml")
         behaviour(exp)[(("1", "1"), ("+1", "-1"))]   # 0.4267...
     """
-    arr = behaviour_array(exp.state.rho, exp.state.dims, numeric_povms(exp))
-    return dict(zip(exp.scenario.coordinates(), (float(x) for x in arr)))
+    return dict(zip(exp.scenario.coordinates(), (float(x) for x in behaviour_vector(exp))))
 
 
 def _kron(mats):
     return reduce(lambda a, b: sympy.kronecker_product(a, b), mats)
+
+
+def _cells(exp: Experiment, rows):
+    """(settings, outcomes, [operator of each lab]) for every coordinate, in scenario order."""
+    sc = exp.scenario
+    which = exp.lab_rows()[1]
+    for s, xs in zip(sc.setting_tuples(), which):
+        mats = [rows[i][x] for i, x in enumerate(xs)]
+        for a, ks in zip(sc.outcome_tuples(), itertools.product(*(range(len(m)) for m in mats))):
+            yield s, a, [m[k] for m, k in zip(mats, ks)]
 
 
 def exact_behaviour(exp: Experiment, simplify: bool = True) -> dict[Coord, sympy.Expr]:
@@ -88,17 +111,14 @@ def exact_behaviour(exp: Experiment, simplify: bool = True) -> dict[Coord, sympy
 
 def _exact_behaviour(exp: Experiment, simplify: bool) -> dict[Coord, sympy.Expr]:
     rho = exp.state.exact
-    rows = [[m.exact for m in row] for row in exp.povms()]
+    rows = [[m.exact for m in row] for row in exp.lab_rows()[0]]
     out: dict[Coord, sympy.Expr] = {}
-    sc = exp.scenario
-    for s, xs in zip(sc.setting_tuples(), itertools.product(*(range(len(r)) for r in rows))):
-        for a, ks in zip(sc.outcome_tuples(), itertools.product(*(range(len(rows[i][x])) for i, x in enumerate(xs)))):
-            K = _kron([rows[i][x][k] for i, (x, k) in enumerate(zip(xs, ks))])
-            v = (rho * K).trace()
-            if simplify:
-                # a probability is real: keep the real part, then tidy radicals
-                v = sympy.radsimp(sympy.simplify(sympy.re(sympy.expand_complex(v))))
-            out[(s, a)] = v
+    for s, a, ops in _cells(exp, rows):
+        v = (rho * _kron(ops)).trace()
+        if simplify:
+            # a probability is real: keep the real part, then tidy radicals
+            v = sympy.radsimp(sympy.simplify(sympy.re(sympy.expand_complex(v))))
+        out[(s, a)] = v
     return out
 
 
@@ -127,19 +147,16 @@ def ball_behaviour(exp: Experiment, prec: int = PREC) -> dict[Coord, flint.arb]:
     try:
         rho = _acb_matrix(exp.state.exact)
         D = len(rho)
-        rows = [[[_acb_matrix(P) for P in m.exact] for m in row] for row in exp.povms()]
+        rows = [[[_acb_matrix(P) for P in m.exact] for m in row] for row in exp.lab_rows()[0]]
         out: dict[Coord, flint.arb] = {}
-        sc = exp.scenario
-        for s, xs in zip(sc.setting_tuples(), itertools.product(*(range(len(r)) for r in rows))):
-            for a, ks in zip(sc.outcome_tuples(),
-                             itertools.product(*(range(len(rows[i][x])) for i, x in enumerate(xs)))):
-                K = reduce(_acb_kron, [rows[i][x][k] for i, (x, k) in enumerate(zip(xs, ks))])
-                tr = flint.acb(0)
-                for i in range(D):
-                    ri = rho[i]
-                    for j in range(D):
-                        tr += ri[j] * K[j][i]
-                out[(s, a)] = tr.real
+        for s, a, ops in _cells(exp, rows):
+            K = reduce(_acb_kron, ops)
+            tr = flint.acb(0)
+            for i in range(D):
+                ri = rho[i]
+                for j in range(D):
+                    tr += ri[j] * K[j][i]
+            out[(s, a)] = tr.real
         exp.cache[("ball", prec)] = out
         return dict(out)
     finally:

@@ -125,7 +125,7 @@ def _cheap(exp: Experiment) -> bool:
         return all(not (a.is_Rational and isinstance(a, Rational) and a.q > 10 ** 6) for a in sympy.preorder_traversal(e))
     if exp.state.dim > 8:
         return False
-    mats = [exp.state.exact] + [P for row in exp.povms() for m in row for P in m.exact]
+    mats = [exp.state.exact] + [P for row in exp.lab_rows()[0] for m in row for P in m.exact]
     return all(simple(x) for M in mats for x in M)
 
 

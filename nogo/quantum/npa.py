@@ -171,6 +171,13 @@ def npa_bound(ineq: Inequality, level: str = "1", solver: str | None = None, cer
     import cvxpy as cp
 
     sc = ineq.scenario
+    if any(p.choice_of for p in sc.parties):
+        from .labs import lab_plan, pull_back, reduction_note
+
+        plan = lab_plan(sc)
+        b = npa_bound(pull_back(ineq, plan), level, solver, certify)
+        b.notes.insert(0, reduction_note(sc, plan))
+        return b
     n_par = len(sc.parties)
     if n_par < 2:
         raise InputError("an NPA bound needs two or more parties")

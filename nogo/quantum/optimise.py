@@ -38,7 +38,7 @@ from .states import exact_from_vector
 class Slot:
     """One measurement to optimise: a party's own, or an inner observer's."""
 
-    kind: str  # "party" | "inner"
+    kind: str  # "party" | "inner" | "inner_at" (an observer at a setting of its own)
     name: str  # party name or observer name
     setting: str | None
     dim: int
@@ -58,13 +58,13 @@ class Problem:
     """Everything a start needs, as plain picklable data."""
 
     slots: list[Slot]
-    uses: list[list[tuple[int, tuple[int, ...] | None]]]  # [party][setting]: (slot, relabel or None)
+    uses: list[list[tuple[int, tuple[int, ...] | None]]]  # [lab][reading]: (slot, relabel or None)
     dims: tuple[int, ...]
     cost: np.ndarray  # over scenario.coordinates()
     rho: np.ndarray | None  # fixed state, or None when the state is optimised
     zeros: list[int]  # coordinate indices that must vanish
     outcome_counts: list[int]
-    settings_counts: list[int]
+    which: tuple[tuple[int, ...], ...]  # per settings tuple: the reading of each lab (Experiment.lab_rows)
 
 
 def _unitary(params: np.ndarray, d: int) -> np.ndarray:
@@ -139,31 +139,26 @@ def _povms(prob: Problem, slot_params) -> list[list[np.ndarray]]:
 def _behaviour(prob: Problem, x: np.ndarray) -> np.ndarray:
     sp, rest = _split(prob, x)
     rho, _ = _state_of(prob, rest)
-    return behaviour_array(rho, prob.dims, _povms(prob, sp))
+    return behaviour_array(rho, prob.dims, _povms(prob, sp), prob.which)
 
 
 def _amplitudes(prob: Problem, x: np.ndarray) -> np.ndarray:
     """Real and imaginary parts of <e_1 ... e_n|psi> for each zero event (pure state, rank one)."""
-    import itertools
-
     sp, rest = _split(prob, x)
     _, psi = _state_of(prob, rest)
     vecs = [_slot_vectors(s, p) for s, p in zip(prob.slots, sp)]
-    coords = list(itertools.product(*(itertools.product(range(n_s), ) for n_s in prob.settings_counts)))
     out = []
     per_setting = int(np.prod(prob.outcome_counts))
     for z in prob.zeros:
         si, ai = divmod(z, per_setting)
-        xs = np.unravel_index(si, prob.settings_counts)
         as_ = np.unravel_index(ai, prob.outcome_counts)
         v = np.ones(1, dtype=complex)
-        for i, (x_i, a_i) in enumerate(zip(xs, as_)):
-            slot, relabel = prob.uses[i][x_i]
+        for i, (r_i, a_i) in enumerate(zip(prob.which[si], as_)):
+            slot, relabel = prob.uses[i][r_i]
             k = a_i if relabel is None else relabel.index(a_i)
             v = np.kron(v, vecs[slot][k])
         amp = np.vdot(v, psi)
         out += [amp.real, amp.imag]
-    del coords
     return np.array(out)
 
 
@@ -221,28 +216,7 @@ def optimise(exp: Experiment, ineq: Inequality, *, starts: int = 8, seed: int = 
     References: scipy.optimize (L-BFGS-B, SLSQP); Hardy, PRL 71, 1665 (1993) for zero constraints.
     """
     sc = exp.scenario
-    slots: list[Slot] = []
-    index: dict[tuple, int] = {}
-    uses = []
-    for i, p in enumerate(sc.parties):
-        row = []
-        lab_obs = [o for o in sc.inner if o.lab == p.name and o.name in exp.inner]
-        if len(lab_obs) > 1:
-            raise InputError(f"lab {p.name} has {len(lab_obs)} inner observers; optimising supports one per lab")
-        for x in p.settings:
-            o = exp.read_out(p.name, x)
-            d = exp.state.dims[i]
-            if o is not None:
-                key = ("inner", o.name)
-                if key not in index:
-                    index[key] = len(slots)
-                    slots.append(Slot("inner", o.name, None, d, len(o.outcomes)))
-                row.append((index[key], tuple(o.relabel)))
-            else:
-                index[("party", p.name, x)] = len(slots)
-                slots.append(Slot("party", p.name, x, d, len(p.outcomes)))
-                row.append((len(slots) - 1, None))
-        uses.append(row)
+    slots, uses = _slots(exp)
     for s in slots:
         if s.outcomes > s.dim:
             raise InputError(f"{s.name} has {s.outcomes} outcomes on dimension {s.dim}: some outcome would never occur")
@@ -250,7 +224,7 @@ def optimise(exp: Experiment, ineq: Inequality, *, starts: int = 8, seed: int = 
     pos = {c: k for k, c in enumerate(coords)}
     cost = np.array([float(v) for v in ineq.vector()])
     prob = Problem(slots, uses, exp.state.dims, cost, None if over_state else exp.state.rho,
-                   [pos[z] for z in zeros], [len(p.outcomes) for p in sc.parties], [len(p.settings) for p in sc.parties])
+                   [pos[z] for z in zeros], [len(p.outcomes) for p in sc.labs], exp.lab_rows()[1])
     n = sum(s.n_params for s in slots) + (2 * int(np.prod(exp.state.dims)) if over_state else 0)
     rng = np.random.default_rng(seed)
     tasks = [(prob, rng.uniform(-np.pi, np.pi, size=n)) for _ in range(starts)]
@@ -264,10 +238,38 @@ def optimise(exp: Experiment, ineq: Inequality, *, starts: int = 8, seed: int = 
     return Optimum(value, _experiment(exp, prob, x, over_state), [r[0] for r in ok], zv, notes)
 
 
+def _slots(exp: Experiment) -> tuple[list[Slot], list[list[tuple[int, tuple[int, ...] | None]]]]:
+    """One slot per measurement the experiment makes (a party's, an observer's, an observer's at its own
+    setting), and for each lab's reading the slot it uses with the read-out chain's relabelling."""
+    sc = exp.scenario
+    slots: list[Slot] = []
+    index: dict[tuple, int] = {}
+    uses = []
+    for i, lab in enumerate(exp.plan.labs):
+        lab_obs = [o for o in sc.inner if o.lab == lab.lab and o.name in exp.inner]
+        if not sc.nested and len(lab_obs) > 1:
+            raise InputError(f"lab {lab.lab} has {len(lab_obs)} inner observers; optimising supports one per lab")
+        if any(r.before for r in lab.readings):
+            raise InputError(f"lab {lab.lab} has observers that measure one after another without being undone; "
+                             f"optimising supports read-out chains without such dephasing")
+        row = []
+        for r in lab.readings:
+            kind = "party" if not r.chain else ("inner" if r.setting is None else "inner_at")
+            key = (kind, r.measurer, r.setting)
+            if key not in index:
+                index[key] = len(slots)
+                n_out = len(sc.party(r.measurer).outcomes) if kind == "party" else len(sc.observer(r.measurer).outcomes)
+                slots.append(Slot(kind, r.measurer, r.setting, exp.state.dims[i], n_out))
+            row.append((index[key], tuple(r.relabel) if r.chain else None))
+        uses.append(row)
+    return slots, uses
+
+
 def _experiment(exp: Experiment, prob: Problem, x: np.ndarray, over_state: bool) -> Experiment:
     sp, rest = _split(prob, x)
     meas = dict(exp.measurements)
     inner = dict(exp.inner)
+    inner_at = dict(exp.inner_at)
     for s, p in zip(prob.slots, sp):
         if s.qubit:
             m = bloch_float(float(p[0]), float(p[1]))
@@ -275,10 +277,13 @@ def _experiment(exp: Experiment, prob: Problem, x: np.ndarray, over_state: bool)
             m = from_unitary(_unitary(p, s.dim), _groups(s))
         if s.kind == "party":
             meas[(s.name, s.setting)] = m
+        elif s.kind == "inner_at":
+            inner_at[(s.name, s.setting)] = m
         else:
             inner[s.name] = m
     state = exp.state
     if over_state:
         _, psi = _state_of(prob, rest)
         state = exact_from_vector(psi, exp.state.dims, "optimised pure state")
-    return Experiment(exp.scenario, state, meas, inner, (exp.title + " (optimised)").strip(), exp.theory_file, exp.file)
+    return Experiment(exp.scenario, state, meas, inner, (exp.title + " (optimised)").strip(), exp.theory_file, exp.file,
+                      inner_at=inner_at)

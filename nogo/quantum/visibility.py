@@ -35,7 +35,7 @@ from ..check import CheckResult, decide
 from ..fanout import fan_out
 from ..inequality import Inequality, format_inequality
 from ..model import LinearModel
-from .born import PREC, ball_behaviour, behaviour, behaviour_array, numeric_povms
+from .born import PREC, ball_behaviour, behaviour, behaviour_vector
 from .certify import ball_dot, collins_gisin_text
 from .experiment import Experiment
 from .numbers import arb_from_fraction
@@ -277,8 +277,8 @@ def sweep(model: LinearModel, exp: Experiment, inequalities: list[Inequality], n
           workers: int | None = None) -> dict:
     """Values of the inequalities (left sides as written) and float membership along v in [0, 1]."""
     nstate = noise_state(exp, noise)
-    p_s = behaviour_array(exp.state.rho, exp.state.dims, numeric_povms(exp))
-    p_n = behaviour_array(nstate.rho, nstate.dims, numeric_povms(exp))
+    p_s = behaviour_vector(exp)
+    p_n = behaviour_vector(exp, nstate.rho)
     vs = np.linspace(0, 1, steps)
     pts = [v * p_s + (1 - v) * p_n for v in vs]
     inside = fan_out(_member, [(model, p) for p in pts], workers)
