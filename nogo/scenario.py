@@ -68,6 +68,15 @@ class InnerObserver:
         """Is the observer read out at more than one setting of its lab (``read_out_at: [x, y, ...]``)?"""
         return len(self.read_outs) > 1
 
+    def relabel_at(self, setting: str | None) -> tuple[int, ...] | None:
+        """The relabelling under which the observer is read out at *setting* of its lab (None: not read out there).
+
+        An observer read out ``always`` is read out whatever the setting (also when the lab has none)."""
+        for x, rel in self.read_outs:
+            if x == ALWAYS or (setting is not None and x == setting):
+                return rel
+        return None
+
 
 @dataclass(frozen=True)
 class EventVar:

@@ -268,3 +268,22 @@ def test_qbound_and_optimise_on_the_choice_theory(tmp_path, capsys):
 
     v, = evaluate(again, [parse_inequality(again.scenario, ch)])
     assert v.violated and v.float_value > float(TSIRELSON_CH) - 1e-4
+
+
+def test_observer_read_out_at_two_settings_shows_its_record_relabelled(theory):
+    # theories/friends-2x3-two-readouts.yaml: A_in is read out at A's settings 1 and 3, with the sign
+    # flipped at 3.  Quantum account (Bong et al., Nature Physics 16, 1199 (2020)): at a read-out setting
+    # the super-observer reports the friend's (relabelled) record, so exactly p(a b|3 y) = p(-a b|1 y);
+    # the register model (memories, copies, undoing) agrees numerically.
+    exp = load_experiment_text("state: singlet\nmeasurements: {A: {2: X}, B: {2: {bloch: [3*pi/4]}, "
+                               "3: {bloch: [-3*pi/4]}}}\ninner_observers: {A_in: Z, B_in: {bloch: [pi/4]}}\n",
+                               theory("friends-2x3-two-readouts"))
+    eb = exact_behaviour(exp)
+    flip = {"+1": "-1", "-1": "+1"}
+    for y in ("1", "2", "3"):
+        for a, b in itertools.product(("+1", "-1"), repeat=2):
+            assert sympy.simplify(eb[(("3", y), (a, b))] - eb[(("1", y), (flip[a], b))]) == 0
+    # and setting 3 is not a copy of the undone setting 2 (the check above could not pass by accident)
+    assert any(sympy.simplify(eb[(("3", "1"), (a, "+1"))] - eb[(("2", "1"), (a, "+1"))]) != 0 for a in flip)
+    rb = register_behaviour(exp)
+    assert all(abs(float(eb[k]) - rb[k]) < 1e-10 for k in eb)

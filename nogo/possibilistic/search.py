@@ -79,7 +79,8 @@ def _variant(experiment, choice, candidates):
                 inner[o.name] = candidates[n]
             else:
                 meas[(p.name, x)] = candidates[n]
-    return Experiment(sc, experiment.state, meas, inner, experiment.title, experiment.theory_file, experiment.file)
+    return Experiment(sc, experiment.state, meas, inner, experiment.title, experiment.theory_file, experiment.file,
+                      inner_at=experiment.inner_at)
 
 
 def evaluate_point(item) -> PointResult:

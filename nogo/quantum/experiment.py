@@ -66,7 +66,7 @@ class Experiment:
     def read_out(self, party: str, setting: str):
         """The inner observer read out at (party, setting), or None."""
         for o in self.scenario.inner:
-            if o.lab == party and o.read_out_at == setting:
+            if o.lab == party and o.read_out_at != ALWAYS and o.relabel_at(setting) is not None:
                 return o
         return None
 

@@ -30,6 +30,7 @@ from functools import reduce
 import numpy as np
 
 from ..inequality import Coord
+from ..scenario import ALWAYS
 from .experiment import Experiment
 
 
@@ -85,11 +86,11 @@ def _lab_operations(exp: Experiment, p, obs, dims: list[int], U: np.ndarray):
     dl = int(np.prod(dims))
     ops_p, pov_p = [], []
     for x in p.settings:
-        reader = next((o for o in obs if o.read_out_at == x), None)
+        reader = next((o for o in obs if o.read_out_at != ALWAYS and o.relabel_at(x) is not None), None)
         if reader is not None:
             j = obs.index(reader)
             Es = [np.zeros((dl, dl), dtype=complex) for _ in p.outcomes]
-            for k, a in enumerate(reader.relabel):
+            for k, a in enumerate(reader.relabel_at(x)):
                 proj = np.zeros((dims[1 + j], dims[1 + j]))
                 proj[k, k] = 1.0
                 mats = [np.eye(f) for f in dims]

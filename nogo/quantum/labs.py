@@ -100,7 +100,7 @@ def _children(scenario: Scenario) -> dict[str, list[InnerObserver]]:
 def _resolve(node: str, outcomes: int, own: str | None, kids, assignment: dict[str, str]) -> Reading:
     """The reading of *node* (party or observer) given the settings of the lab's choosers."""
     mine = kids.get(node, [])
-    reader = next((c for c in mine if c.read_out_at == ALWAYS or (own is not None and c.read_out_at == own)), None)
+    reader = next((c for c in mine if c.relabel_at(own) is not None), None)
     if reader is None:
         return Reading(node, own, tuple(range(outcomes)))
     inner = _resolve(reader.name, len(reader.outcomes), assignment.get(reader.name), kids, assignment)
@@ -113,7 +113,7 @@ def _resolve(node: str, outcomes: int, own: str | None, kids, assignment: dict[s
                 f"(declared earlier in {node}'s lab) and has {what}; nogo.quantum models an earlier observer "
                 f"that is not undone as one plain measurement only",
                 hint=f"declare {reader.name} before {c.name}, or give {c.name} no observers and no choices")
-    return Reading(inner.measurer, inner.setting, tuple(reader.relabel[i] for i in inner.relabel),
+    return Reading(inner.measurer, inner.setting, tuple(reader.relabel_at(own)[i] for i in inner.relabel),
                    inner.chain + (reader.name,), tuple(c.name for c in earlier) + inner.before)
 
 

@@ -76,11 +76,10 @@ class _Lab:
         for c in self.kids[node]:
             U = self.process(c.name, assign) @ U
         own = assign.get(node)
-        reader = next((c for c in self.kids[node]
-                       if c.read_out_at == ALWAYS or (own is not None and c.read_out_at == own)), None)
+        reader = next((c for c in self.kids[node] if c.relabel_at(own) is not None), None)
         j = 1 + self.nodes.index(node)
         if reader is not None:
-            C = _copy(reader.relabel, self.outs[node])
+            C = _copy(reader.relabel_at(own), self.outs[node])
             return _op_on(self.dims, [1 + self.nodes.index(reader.name), j], C) @ U
         m = self._measurement(node, own)
         if m is None:  # an observer with no measurement given does not measure

@@ -78,14 +78,25 @@ def behaviour_record(exp) -> dict:
 
 
 def _measurement_text(exp) -> dict:
+    """The effective measurement of each lab's outcome, keyed "party+setting"; for a lab whose
+    observers choose (no one measurement per setting), keyed by the lab and the reading's number."""
     out = {}
-    for p in exp.scenario.parties:
-        for x in p.settings:
-            m = exp.effective(p.name, x)
-            out[f"{p.name}{x}"] = {"label": m.label,
-                                   "projectors": [str(P.tolist()) for P in (m.exact or ())] if m.exact else
-                                   [str(P.round(12).tolist()) for P in m.projectors]}
+    try:
+        for p in exp.scenario.parties:
+            for x in p.settings:
+                out[f"{p.name}{x}"] = _one_measurement(exp.effective(p.name, x))
+    except ValueError:
+        out = {}
+        rows, _ = exp.lab_rows()
+        for lab, ms in zip(exp.scenario.labs, rows):
+            for k, m in enumerate(ms):
+                out[f"{lab.name}#{k}"] = _one_measurement(m)
     return out
+
+
+def _one_measurement(m) -> dict:
+    return {"label": m.label, "projectors": [str(P.tolist()) for P in (m.exact or ())] if m.exact else
+            [str(P.round(12).tolist()) for P in m.projectors]}
 
 
 def _claimed(text: str):
