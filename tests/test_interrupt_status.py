@@ -1,0 +1,113 @@
+"""Ctrl-C at any moment of a command ends it with status 130 and one line, and leaves no half-written file.
+
+The hole these tests close: Python drops an exception raised where it cannot
+propagate (importlib's module-lock weakref callback during an import, a
+``__del__``), so a SIGINT landing there was swallowed and the command went
+on to exit 0; and CPython's own exit lost a SIGINT (status 0) or died of it
+(status -2, no message).  Exit status 130 for SIGINT is common practice
+(128 + signal number, as shells report it).
+
+Each child starts with SIGINT blocked: a Ctrl-C during the interpreter's own
+start-up (before any nogo code runs) is the interpreter's, and nogo unblocks
+SIGINT once its handler is in place, so every delay below is nogo's to handle.
+"""
+
+from __future__ import annotations
+
+import os
+import signal
+import subprocess
+import sys
+import time
+from itertools import count
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
+
+pytestmark = pytest.mark.skipif(sys.platform == "win32", reason="POSIX signals")
+
+
+_RUNS = count()
+
+
+def _env(tmp_path: Path) -> dict:
+    """A fresh result cache for every run, so that each one does the whole work."""
+    return dict(os.environ, NOGO_CACHE=str(tmp_path / f"cache{next(_RUNS)}"), PYTHONPATH=str(ROOT))
+
+
+def _start(args, tmp_path: Path) -> subprocess.Popen:
+    signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGINT})
+    try:
+        return subprocess.Popen([sys.executable, "-m", "nogo", *args], cwd=tmp_path, env=_env(tmp_path),
+                                stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    finally:
+        signal.pthread_sigmask(signal.SIG_UNBLOCK, {signal.SIGINT})
+
+
+def _interrupt_after(args, delay: float, tmp_path: Path):
+    """(status, stderr) of the command sent SIGINT *delay* seconds after its start, or None if it had ended."""
+    p = _start(args, tmp_path)
+    time.sleep(delay)
+    if p.poll() is not None:
+        p.communicate()
+        return None
+    p.send_signal(signal.SIGINT)
+    _, err = p.communicate(timeout=120)
+    return p.returncode, err.decode()
+
+
+def _duration(args, tmp_path: Path) -> float:
+    t0 = time.monotonic()
+    p = _start(args, tmp_path)
+    p.communicate(timeout=300)
+    assert p.returncode == 0
+    return time.monotonic() - t0
+
+
+def _assert_interrupted(res, delay):
+    code, err = res
+    lines = err.strip().splitlines()
+    assert code == 130, (delay, code, err)
+    assert "Traceback" not in err and "Exception ignored" not in err, (delay, err)
+    assert lines[-1] == "nogo: interrupted" and lines.count("nogo: interrupted") == 1, (delay, err)
+    assert all(line.startswith("nogo: ") for line in lines), (delay, err)
+
+
+def test_sigint_at_a_sweep_of_delays_always_exits_130(tmp_path):
+    args = ["check", str(ROOT / "theories" / "friends-2x3.yaml"), "local-friendliness", "I3322"]
+    total = _duration(args, tmp_path)
+    # from the first instant (imports) to well inside the last part of the run (answer, exit);
+    # the last fifth is left out so that no delay falls after the process has ended
+    delays = [0.0] + [total * f for f in (0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7, 0.8)]
+    sent = 0
+    for delay in delays:
+        res = _interrupt_after(args, delay, tmp_path)
+        if res is None:
+            continue
+        _assert_interrupted(res, delay)
+        sent += 1
+    assert sent >= len(delays) - 2, f"only {sent} of {len(delays)} interrupts reached a running command"
+
+
+@pytest.mark.slow
+def test_sigint_while_facets_are_written_leaves_no_part_file(tmp_path):
+    out = tmp_path / "facets.csv"
+    args = ["facets", str(ROOT / "theories" / "friends-2x3.yaml"), "local-friendliness",
+            "--format", "csv", "--out", str(out)]
+    total = _duration(args, tmp_path)
+    complete = out.read_text()
+    out.unlink()
+    sent = 0
+    for f in (0.05, 0.3, 0.6, 0.8):
+        res = _interrupt_after(args, total * f, tmp_path)
+        if res is None:
+            continue
+        _assert_interrupted(res, total * f)
+        sent += 1
+        assert not list(tmp_path.glob(".*.part")) and not list(tmp_path.glob("*.part")), "half-written file left"
+        if out.exists():  # the rename had happened: the file is the whole list
+            assert out.read_text() == complete
+            out.unlink()
+    assert sent >= 3
