@@ -63,6 +63,15 @@ def _unraisable(hook_args) -> None:  # pragma: no cover - exercised in a subproc
     sys.__unraisablehook__(hook_args)
 
 
+def _solver_caught_interrupt(exc: BaseException) -> bool:
+    """A solver that takes SIGINT itself (python-sat's solve) and reports it as its own error.
+
+    Our handler never ran then; python-sat raises ``pysolvers.error("Caught keyboard interrupt")``.
+    (z3 would swallow it; its callers turn z3's handler off with ``ctrl_c=False``.)
+    """
+    return "keyboard interrupt" in str(exc).lower()
+
+
 def _set_sigint(handler) -> None:
     try:
         signal.signal(signal.SIGINT, handler)
@@ -209,7 +218,7 @@ def _main(argv: list[str] | None, program: bool) -> int:
               "(see the size options of the command)", file=sys.stderr)
         return 2
     except Exception as exc:  # noqa: BLE001 - a user sees one line, developers set NOGO_DEBUG
-        if _interrupted:  # the interrupt came through a library that replaced it with another error
+        if _interrupted or _solver_caught_interrupt(exc):  # a library replaced the interrupt with its own error
             print("nogo: interrupted", file=sys.stderr)
             return 130
         if os.environ.get("NOGO_DEBUG"):

@@ -253,6 +253,7 @@ def _z3_optimum(model: LinearModel, cost: ExactVector) -> ExactOptimum:
 
     q = [z3.Real(f"q{j}") for j in range(len(model.columns))]
     opt = z3.Optimize()
+    opt.set("ctrl_c", False)  # z3's own SIGINT handler would swallow a Ctrl-C; leave it to nogo's
     for x in q:
         opt.add(x >= 0)
     for i, row in enumerate(model.rows):

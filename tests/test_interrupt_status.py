@@ -111,3 +111,69 @@ def test_sigint_while_facets_are_written_leaves_no_part_file(tmp_path):
             assert out.read_text() == complete
             out.unlink()
     assert sent >= 3
+
+
+_SOLVE_UNTIL_INTERRUPTED = """
+import sys
+from pysat.examples.genhard import PHP
+from pysat.solvers import Solver
+from nogo.cli import _solver_caught_interrupt
+with Solver(name="m22", bootstrap_with=PHP(12).clauses) as s:  # pigeonhole 13 -> 12: long for CDCL
+    print("solving", flush=True)
+    try:
+        s.solve()
+        print("finished", flush=True)
+    except Exception as exc:
+        print("recognised" if _solver_caught_interrupt(exc) else f"unrecognised {type(exc).__name__}: {exc}")
+"""
+
+
+def test_a_ctrl_c_python_sat_took_itself_is_recognised(tmp_path):
+    """python-sat installs its own SIGINT handler during solve() and raises its own error, not KeyboardInterrupt.
+
+    The pigeonhole formulas are exponentially hard for resolution (A. Haken, Theor. Comput. Sci. 39,
+    297 (1985)), so the solve is still running when the signal comes.
+    """
+    p = subprocess.Popen([sys.executable, "-c", _SOLVE_UNTIL_INTERRUPTED], env=_env(tmp_path),
+                         stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    assert p.stdout.readline().strip() == "solving"
+    time.sleep(0.3)
+    p.send_signal(signal.SIGINT)
+    out, err = p.communicate(timeout=60)
+    assert out.strip() == "recognised", (out, err)
+
+
+_Z3_UNTIL_INTERRUPTED = """
+import signal, z3
+from nogo.cli import _raise_interrupt
+signal.signal(signal.SIGINT, _raise_interrupt)
+n = 10  # about two seconds: the interrupt is taken when the check returns
+p = [[z3.Bool(f"p{i}_{j}") for j in range(n - 1)] for i in range(n)]
+opt = z3.Optimize()
+opt.set("ctrl_c", False)  # as nogo.exact sets it
+for i in range(n):
+    opt.add(z3.Or(p[i]))
+for j in range(n - 1):
+    for a in range(n):
+        for b in range(a + 1, n):
+            opt.add(z3.Not(z3.And(p[a][j], p[b][j])))
+print("solving", flush=True)
+try:
+    print("finished", opt.check(), flush=True)
+except KeyboardInterrupt:
+    print("interrupted", flush=True)
+"""
+
+
+def test_z3_without_its_own_handler_leaves_the_ctrl_c_to_nogo(tmp_path):
+    """With ``ctrl_c`` on (z3's default) an Optimize check swallows SIGINT; nogo.exact turns it off.
+
+    Then the Ctrl-C is nogo's, taken when the check returns (z3 offers no prompt cancel for Optimize).
+    """
+    p = subprocess.Popen([sys.executable, "-c", _Z3_UNTIL_INTERRUPTED], env=_env(tmp_path),
+                         stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    assert p.stdout.readline().strip() == "solving"
+    time.sleep(0.3)
+    p.send_signal(signal.SIGINT)
+    out, err = p.communicate(timeout=120)
+    assert out.strip() == "interrupted", (out, err)
