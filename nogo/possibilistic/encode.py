@@ -231,6 +231,10 @@ def build_space(theory: Theory, spec, pattern: SupportPattern, settings=None) ->
     (one per listed event) followed by one group per instance of every
     independence clause (a pair of settings tuples: each tuple with its
     moved parties at their first setting, as :mod:`nogo.compile` does).
+    Stages: check and resolve the declarations; one variable per joint
+    assignment (:func:`_variables`); the pattern's facts
+    (:func:`_fact_groups`); the independence instances
+    (:func:`_independence_groups`).
 
     Example
     -------
