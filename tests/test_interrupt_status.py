@@ -113,6 +113,16 @@ def test_sigint_while_facets_are_written_leaves_no_part_file(tmp_path):
     assert sent >= 3
 
 
+def _interrupt_script(code: str, tmp_path: Path) -> tuple[str, str]:
+    """Run *code* in a child; SIGINT it 0.3 s after it prints "solving"; its output."""
+    p = subprocess.Popen([sys.executable, "-c", code], env=_env(tmp_path),
+                         stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    assert p.stdout.readline().strip() == "solving"
+    time.sleep(0.3)
+    p.send_signal(signal.SIGINT)
+    return p.communicate(timeout=120)
+
+
 _SOLVE_UNTIL_INTERRUPTED = """
 import sys
 from pysat.examples.genhard import PHP
@@ -134,12 +144,7 @@ def test_a_ctrl_c_python_sat_took_itself_is_recognised(tmp_path):
     The pigeonhole formulas are exponentially hard for resolution (A. Haken, Theor. Comput. Sci. 39,
     297 (1985)), so the solve is still running when the signal comes.
     """
-    p = subprocess.Popen([sys.executable, "-c", _SOLVE_UNTIL_INTERRUPTED], env=_env(tmp_path),
-                         stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
-    assert p.stdout.readline().strip() == "solving"
-    time.sleep(0.3)
-    p.send_signal(signal.SIGINT)
-    out, err = p.communicate(timeout=60)
+    out, err = _interrupt_script(_SOLVE_UNTIL_INTERRUPTED, tmp_path)
     assert out.strip() == "recognised", (out, err)
 
 
@@ -149,8 +154,8 @@ from nogo.cli import _raise_interrupt
 signal.signal(signal.SIGINT, _raise_interrupt)
 n = 10  # about two seconds: the interrupt is taken when the check returns
 p = [[z3.Bool(f"p{i}_{j}") for j in range(n - 1)] for i in range(n)]
-opt = z3.Optimize()
-opt.set("ctrl_c", False)  # as nogo.exact sets it
+from nogo.exact import _optimizer
+opt = _optimizer()  # the one nogo's exact fallback uses
 for i in range(n):
     opt.add(z3.Or(p[i]))
 for j in range(n - 1):
@@ -166,14 +171,9 @@ except KeyboardInterrupt:
 
 
 def test_z3_without_its_own_handler_leaves_the_ctrl_c_to_nogo(tmp_path):
-    """With ``ctrl_c`` on (z3's default) an Optimize check swallows SIGINT; nogo.exact turns it off.
+    """With ``ctrl_c`` on (z3's default) an Optimize check swallows SIGINT; nogo.exact's is built with it off.
 
     Then the Ctrl-C is nogo's, taken when the check returns (z3 offers no prompt cancel for Optimize).
     """
-    p = subprocess.Popen([sys.executable, "-c", _Z3_UNTIL_INTERRUPTED], env=_env(tmp_path),
-                         stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
-    assert p.stdout.readline().strip() == "solving"
-    time.sleep(0.3)
-    p.send_signal(signal.SIGINT)
-    out, err = p.communicate(timeout=120)
+    out, err = _interrupt_script(_Z3_UNTIL_INTERRUPTED, tmp_path)
     assert out.strip() == "interrupted", (out, err)
