@@ -31,21 +31,17 @@ import argparse
 import resource
 import sys
 import tempfile
-import time
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
+sys.path.insert(0, str(ROOT / "benchmarks"))
 
 from nogo.facets import facets  # noqa: E402
 from nogo.polytope import _exact_hull, choose_frame  # noqa: E402
 from nogo.theory import load_theory  # noqa: E402
 
-
-def timed(fn):
-    w, c = time.perf_counter(), time.process_time()
-    out = fn()
-    return out, time.perf_counter() - w, time.process_time() - c
+from _timing import timed  # noqa: E402
 
 
 def case(theory: str, bundle: str, expected: int, source: str, bare: bool = True) -> None:

@@ -25,22 +25,18 @@ from __future__ import annotations
 
 import argparse
 import sys
-import time
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
+sys.path.insert(0, str(ROOT / "benchmarks"))
 
 from nogo.compile import compile_bundle  # noqa: E402
 from nogo.polytope import _exact_hull, choose_frame, derive_symmetric  # noqa: E402
 from nogo.symmetry import bundle_generators  # noqa: E402
 from nogo.theory import load_theory  # noqa: E402
 
-
-def timed(fn):
-    w, c = time.perf_counter(), time.process_time()
-    out = fn()
-    return out, time.perf_counter() - w, time.process_time() - c
+from _timing import timed  # noqa: E402
 
 
 def symmetric(theory: str, bundle: str, **kw):

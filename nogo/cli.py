@@ -6,11 +6,17 @@ maps errors to exit status 2 without a traceback.  Exit status: 0 for a
 positive answer (implied, consistent, confirmed), 1 for a negative one, 2 for
 bad input or an error, 130 when interrupted (Ctrl-C).
 
-Ctrl-C at any moment prints ``nogo: interrupted`` and nothing else: while
-the command modules are imported and after the answer is printed a quiet
-handler ends the process at once; while a command runs, Ctrl-C raises
-KeyboardInterrupt so that ``finally`` blocks (e.g. the removal of a
-half-written temporary file in :mod:`nogo.atomic`) still run.
+Ctrl-C at any moment prints ``nogo: interrupted`` and nothing else, and the
+status is 130: while the command modules are imported and after the answer
+is printed a quiet handler ends the process at once; while a command runs,
+Ctrl-C raises KeyboardInterrupt so that ``finally`` blocks (e.g. the removal
+of a half-written temporary file in :mod:`nogo.atomic`) still run.  Python
+drops an exception raised where it cannot propagate (a weakref callback such
+as importlib's module-lock clean-up, a ``__del__``): such a swallowed
+interrupt is delivered again at once (:func:`_unraisable`), and a command
+that still returns after an interrupt leaves with 130 all the same.  The
+program leaves through ``os._exit`` after flushing, with SIGINT blocked and
+checked last, so no moment of CPython's own exit can lose an interrupt.
 """
 
 from __future__ import annotations
@@ -41,25 +47,62 @@ def _raise_interrupt(signum=None, frame=None):  # pragma: no cover - exercised i
     raise KeyboardInterrupt
 
 
+def _unraisable(hook_args) -> None:  # pragma: no cover - exercised in a subprocess
+    """``sys.unraisablehook`` while a command runs: a KeyboardInterrupt Python had to drop is raised again.
+
+    Our SIGINT handler raises wherever the main thread is, which may be a weakref callback
+    (importlib's module-lock clean-up during an import) or a ``__del__``; CPython prints
+    "Exception ignored" there and goes on, and the command would finish as if no Ctrl-C came.
+    ``interrupt_main`` re-delivers it at the next bytecode, in ordinary code.
+    """
+    if issubclass(hook_args.exc_type, KeyboardInterrupt):
+        import _thread  # noqa: PLC0415
+
+        _thread.interrupt_main()
+        return
+    sys.__unraisablehook__(hook_args)
+
+
+def _solver_caught_interrupt(exc: BaseException) -> bool:
+    """A solver that takes SIGINT itself (python-sat's solve) and reports it as its own error.
+
+    Our handler never ran then; python-sat raises ``pysolvers.error("Caught keyboard interrupt")``.
+    (z3 would swallow it; its callers turn z3's handler off with ``ctrl_c=False``.)
+    """
+    return "keyboard interrupt" in str(exc).lower()
+
+
 def _set_sigint(handler) -> None:
     try:
         signal.signal(signal.SIGINT, handler)
     except (ValueError, OSError):  # not the main thread, or no signals here
-        pass
+        return
+    if hasattr(signal, "pthread_sigmask"):
+        # a parent may start nogo with SIGINT blocked so that no Ctrl-C falls in the interpreter's
+        # own start-up; once our handler is in place, a held interrupt is delivered to it
+        signal.pthread_sigmask(signal.SIG_UNBLOCK, {signal.SIGINT})
 
 
 def _leave_now(code: int) -> None:  # pragma: no cover - exercised in a subprocess
-    """Flush and end the process with *code*, skipping CPython's own exit.
+    """End the program with *code* (130 if an interrupt came at any moment), skipping CPython's own exit.
 
-    Once a KeyboardInterrupt has passed through a library's embedded code run (even one the
-    library swallowed), CPython ends the process by SIGINT at exit whatever status we return;
-    a parent then reads -2 instead of our status.
+    CPython's exit has windows where a SIGINT is lost (after the last bytecode, before the
+    handlers are reset: status 0) or kills the process (after: status -2, no message).  Here the
+    exit hooks run under the quiet handler, the streams are flushed, then SIGINT is blocked and
+    a pending one still counts.
     """
+    import atexit  # noqa: PLC0415
+
+    atexit._run_exitfuncs()  # what CPython's exit would run first (Dask, process pools)
     for stream in (sys.stdout, sys.stderr):
         try:
             stream.flush()
         except (OSError, ValueError):
             pass
+    if hasattr(signal, "pthread_sigmask"):
+        signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGINT})
+        if signal.SIGINT in signal.sigpending():
+            _quiet_exit()
     os._exit(code)
 
 
@@ -126,7 +169,10 @@ def build_parser(command: str | None = None) -> argparse.ArgumentParser:
 def main(argv: list[str] | None = None) -> int:
     program = _started_as_program() and argv is None
     code = _main(argv, program)
-    if program and _interrupted:  # a Ctrl-C reached our handler: leave with our status, not by SIGINT
+    if program:
+        if _interrupted and code != 130:  # the command went on after a Ctrl-C someone swallowed
+            print("nogo: interrupted", file=sys.stderr)
+            code = 130
         _leave_now(code)
     return code
 
@@ -143,12 +189,14 @@ def _main(argv: list[str] | None, program: bool) -> int:
             parser.print_help()
             return 2
         if program:
+            sys.unraisablehook = _unraisable
             _set_sigint(_raise_interrupt)
         try:
             return int(args.run(args) or 0)
         finally:
             if program:
                 _set_sigint(_quiet_exit)
+                sys.unraisablehook = sys.__unraisablehook__
     except InputError as exc:
         print(f"nogo: error: {exc}", file=sys.stderr)
         return 2
@@ -170,7 +218,7 @@ def _main(argv: list[str] | None, program: bool) -> int:
               "(see the size options of the command)", file=sys.stderr)
         return 2
     except Exception as exc:  # noqa: BLE001 - a user sees one line, developers set NOGO_DEBUG
-        if _interrupted:  # the interrupt came through a library that replaced it with another error
+        if _interrupted or _solver_caught_interrupt(exc):  # a library replaced the interrupt with its own error
             print("nogo: interrupted", file=sys.stderr)
             return 130
         if os.environ.get("NOGO_DEBUG"):

@@ -247,12 +247,21 @@ def exact_optimum(model: LinearModel, cost, ans=None) -> ExactOptimum:
     return _z3_optimum(model, cost)
 
 
+def _optimizer():
+    """A z3 ``Optimize`` without z3's own SIGINT handler, which would swallow a Ctrl-C; nogo's takes it."""
+    import z3
+
+    opt = z3.Optimize()
+    opt.set("ctrl_c", False)
+    return opt
+
+
 def _z3_optimum(model: LinearModel, cost: ExactVector) -> ExactOptimum:
     """Last resort: z3's exact linear real arithmetic finds the maximum."""
     import z3
 
     q = [z3.Real(f"q{j}") for j in range(len(model.columns))]
-    opt = z3.Optimize()
+    opt = _optimizer()
     for x in q:
         opt.add(x >= 0)
     for i, row in enumerate(model.rows):

@@ -18,7 +18,8 @@ from typing import TYPE_CHECKING, Any
 from .report import q
 
 if TYPE_CHECKING:
-    from .facets import Comparison, FacetResult, Witness
+    from .facetcompare import Comparison, Witness
+    from .facettypes import FacetResult
 
 
 def to_dict(r: FacetResult, with_vertices: bool = True) -> dict[str, Any]:

@@ -14,7 +14,7 @@ that cannot be read or written gives a warning; the result is still shown.
 Stage order: :func:`nogo.facets.facets` compiles the model, asks
 :func:`load` here, derives when that fails, and hands the polytope to
 :func:`keep`; class names are recomputed from the catalog every time
-(:func:`nogo.facets._build`), so a stored entry cannot carry a wrong name.
+(:func:`nogo.facetclasses._build`), so a stored entry cannot carry a wrong name.
 """
 
 from __future__ import annotations

@@ -34,12 +34,7 @@ from nogo.theory import load_theory, load_theory_text
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 from test_compile_arrays import _random_theory  # noqa: E402
-
-
-def _bell(m: int):
-    text = (ROOT / "theories" / "bell-2x3.yaml").read_text()
-    return load_theory_text(text.replace("settings: [1, 2, 3]", f"settings: [{', '.join(map(str, range(1, m + 1)))}]"),
-                            f"bell-2x{m}")
+from test_reductions import _bell  # noqa: E402 - Bell-local with m settings per party
 
 
 # -- products from the structure equal those of the built matrix ---------------------

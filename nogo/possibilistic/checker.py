@@ -163,6 +163,10 @@ class _World:
         return len(s) == len(self.parties) and all(x in p.settings for x, p in zip(s, self.sc.parties))
 
 
+class _Refuted(Exception):
+    """The first problem found in a proof (the check stops there)."""
+
+
 def check_proof(theory: Theory, spec, pattern: SupportPattern, proof) -> list[str]:
     """Problems found in *proof* (empty list: every step checks out).
 
@@ -171,6 +175,11 @@ def check_proof(theory: Theory, spec, pattern: SupportPattern, proof) -> list[st
     theory, spec: the declarations and the bundle the proof claims to use;
     pattern: the support pattern; proof: a :class:`~nogo.possibilistic.proof.Proof`
     or its ``to_dict()`` form.
+
+    Stages: read the proof; check that it speaks of the present events; then
+    each step in turn (its place and citations, then its kind's own rule:
+    :func:`_observed`, :func:`_transfer`, :func:`_contradiction`), stopping
+    at the first problem.
     """
     from .proof import Proof  # data class only
 
@@ -180,102 +189,107 @@ def check_proof(theory: Theory, spec, pattern: SupportPattern, proof) -> list[st
         except (KeyError, TypeError, ValueError) as exc:
             return [f"the proof is not well formed: {exc}"]
     w = _World(theory, spec)
-    problems: list[str] = []
     if tuple(proof.events) != w.names:
         return [f"the proof speaks of events {list(proof.events)}, but under '{w.label}' the present events are "
                 f"{list(w.names)}"]
-    by_name = {a.name: a for a in w.assumptions}
-    established: dict[int, list[tuple[tuple[str, ...], tuple]]] = {}
     if not proof.steps:
         return ["the proof has no steps"]
+    established: dict[int, list[tuple[tuple[str, ...], tuple]]] = {}
 
     def cited(s, uses):
         return [cube for u in uses for st, cube in established.get(u, []) if st == s]
 
-    for i, step in enumerate(proof.steps):
-        n = step.number
-        tag = f"step {n}"
-        if n != i + 1:
-            problems.append(f"{tag}: steps must be numbered 1, 2, 3, … (found {n} at position {i + 1})")
-            return problems
-        bad_uses = [u for u in step.uses if not (isinstance(u, int) and 1 <= u < n)]
-        if bad_uses:
-            problems.append(f"{tag}: cites {bad_uses}, which are not earlier steps")
-            return problems
-        s = tuple(step.settings)
-        if not w.valid_settings(s):
-            problems.append(f"{tag}: {s} is not a settings tuple of the scenario")
-            return problems
-        last = i == len(proof.steps) - 1
-        if step.kind == "observed":
-            out = []
-            for stt in step.statements:
-                names = tuple(k for k, _ in stt.cube)
-                a = tuple(v for _, v in stt.cube)
-                if tuple(stt.settings) != s or names != w.parties:
-                    problems.append(f"{tag}: an observed statement must give every party's outcome at {s}")
-                    return problems
-                if (s, a) not in pattern.impossible:
-                    problems.append(f"{tag}: the pattern does not say p({', '.join(a)} | {', '.join(s)}) = 0")
-                    return problems
-                out.append((s, tuple(stt.cube)))
-            established[n] = out
-        elif step.kind == "transfer":
-            a = by_name.get(step.assumption)
-            if a is None:
-                problems.append(f"{tag}: '{step.assumption}' is not an assumption of '{w.label}'")
-                return problems
-            if not (0 <= step.clause < len(a.clauses)) or _support_only(a.clauses[step.clause]) is None:
-                problems.append(f"{tag}: clause {step.clause} of '{a.name}' is not an independence clause "
-                                "without hidden variables")
-                return problems
-            c_events, c_of = _support_only(a.clauses[step.clause])
-            kept = {x for x in c_events if x in w.names}
-            f = tuple(step.from_settings)
-            if not w.valid_settings(f) or f == s:
-                problems.append(f"{tag}: {f} and {s} are not two different settings tuples")
-                return problems
-            moved = {w.parties.index(p) for p in c_of}
-            if any(f[j] != s[j] for j in range(len(s)) if j not in moved):
-                problems.append(f"{tag}: settings {f} and {s} differ in a party whose setting '{a.name}' does not name")
-                return problems
-            out = []
-            for stt in step.statements:
-                if tuple(stt.settings) != s:
-                    problems.append(f"{tag}: a statement is placed at {tuple(stt.settings)}, not at {s}")
-                    return problems
-                extra = [k for k, _ in stt.cube if k not in kept]
-                if extra:
-                    problems.append(f"{tag}: '{a.name}' says nothing of {extra}")
-                    return problems
-                gap = w.uncovered(f, tuple(stt.cube), cited(f, step.uses))
-                if gap is not None:
-                    problems.append(f"{tag}: at {f} the runs with ({gap}) are not excluded by steps {step.uses}")
-                    return problems
-                out.append((s, tuple(stt.cube)))
-            established[n] = out
-        elif step.kind == "contradiction":
-            if not last:
-                problems.append(f"{tag}: a contradiction must be the last step")
-                return problems
-            a = tuple(step.outcomes)
-            if a:
-                if (s, a) not in pattern.possible:
-                    problems.append(f"{tag}: the pattern does not say p({', '.join(a)} | {', '.join(s)}) > 0")
-                    return problems
-                cube = tuple(zip(w.parties, a))
+    try:
+        for i, step in enumerate(proof.steps):
+            s = _placed(w, step, i)
+            tag = f"step {step.number}"
+            if step.kind == "observed":
+                established[step.number] = _observed(w, pattern, step, s, tag)
+            elif step.kind == "transfer":
+                established[step.number] = _transfer(w, step, s, tag, cited)
+            elif step.kind == "contradiction":
+                if i != len(proof.steps) - 1:
+                    raise _Refuted(f"{tag}: a contradiction must be the last step")
+                _contradiction(w, pattern, step, s, tag, cited)
+                return []
             else:
-                cube = ()
-            gap = w.uncovered(s, cube, cited(s, step.uses))
-            if gap is not None:
-                problems.append(f"{tag}: the runs with ({gap}) at {s} are not excluded by steps {step.uses}")
-                return problems
-            return problems
-        else:
-            problems.append(f"{tag}: unknown step kind '{step.kind}'")
-            return problems
-    problems.append("the proof does not end in a contradiction")
-    return problems
+                raise _Refuted(f"{tag}: unknown step kind '{step.kind}'")
+    except _Refuted as exc:
+        return [str(exc)]
+    return ["the proof does not end in a contradiction"]
+
+
+def _placed(w: _World, step, i: int) -> tuple[str, ...]:
+    """Step *i* is numbered i + 1, cites earlier steps only, and sits at a settings tuple: that tuple."""
+    n = step.number
+    tag = f"step {n}"
+    if n != i + 1:
+        raise _Refuted(f"{tag}: steps must be numbered 1, 2, 3, … (found {n} at position {i + 1})")
+    bad_uses = [u for u in step.uses if not (isinstance(u, int) and 1 <= u < n)]
+    if bad_uses:
+        raise _Refuted(f"{tag}: cites {bad_uses}, which are not earlier steps")
+    s = tuple(step.settings)
+    if not w.valid_settings(s):
+        raise _Refuted(f"{tag}: {s} is not a settings tuple of the scenario")
+    return s
+
+
+def _observed(w: _World, pattern: SupportPattern, step, s, tag: str) -> list:
+    """Each statement gives every party's outcome at *s*, and the pattern says it has probability 0."""
+    out = []
+    for stt in step.statements:
+        names = tuple(k for k, _ in stt.cube)
+        a = tuple(v for _, v in stt.cube)
+        if tuple(stt.settings) != s or names != w.parties:
+            raise _Refuted(f"{tag}: an observed statement must give every party's outcome at {s}")
+        if (s, a) not in pattern.impossible:
+            raise _Refuted(f"{tag}: the pattern does not say p({', '.join(a)} | {', '.join(s)}) = 0")
+        out.append((s, tuple(stt.cube)))
+    return out
+
+
+def _transfer(w: _World, step, s, tag: str, cited) -> list:
+    """An independence clause moves the statements from the step's first settings to *s*; a finite case check."""
+    a = {x.name: x for x in w.assumptions}.get(step.assumption)
+    if a is None:
+        raise _Refuted(f"{tag}: '{step.assumption}' is not an assumption of '{w.label}'")
+    if not (0 <= step.clause < len(a.clauses)) or _support_only(a.clauses[step.clause]) is None:
+        raise _Refuted(f"{tag}: clause {step.clause} of '{a.name}' is not an independence clause "
+                       "without hidden variables")
+    c_events, c_of = _support_only(a.clauses[step.clause])
+    kept = {x for x in c_events if x in w.names}
+    f = tuple(step.from_settings)
+    if not w.valid_settings(f) or f == s:
+        raise _Refuted(f"{tag}: {f} and {s} are not two different settings tuples")
+    moved = {w.parties.index(p) for p in c_of}
+    if any(f[j] != s[j] for j in range(len(s)) if j not in moved):
+        raise _Refuted(f"{tag}: settings {f} and {s} differ in a party whose setting '{a.name}' does not name")
+    out = []
+    for stt in step.statements:
+        if tuple(stt.settings) != s:
+            raise _Refuted(f"{tag}: a statement is placed at {tuple(stt.settings)}, not at {s}")
+        extra = [k for k, _ in stt.cube if k not in kept]
+        if extra:
+            raise _Refuted(f"{tag}: '{a.name}' says nothing of {extra}")
+        gap = w.uncovered(f, tuple(stt.cube), cited(f, step.uses))
+        if gap is not None:
+            raise _Refuted(f"{tag}: at {f} the runs with ({gap}) are not excluded by steps {step.uses}")
+        out.append((s, tuple(stt.cube)))
+    return out
+
+
+def _contradiction(w: _World, pattern: SupportPattern, step, s, tag: str, cited) -> None:
+    """Every run at *s* showing the declared possible outcomes (or any run at all) is excluded by the cited steps."""
+    a = tuple(step.outcomes)
+    if a:
+        if (s, a) not in pattern.possible:
+            raise _Refuted(f"{tag}: the pattern does not say p({', '.join(a)} | {', '.join(s)}) > 0")
+        cube = tuple(zip(w.parties, a))
+    else:
+        cube = ()
+    gap = w.uncovered(s, cube, cited(s, step.uses))
+    if gap is not None:
+        raise _Refuted(f"{tag}: the runs with ({gap}) at {s} are not excluded by steps {step.uses}")
 
 
 def check_model(theory: Theory, spec, pattern: SupportPattern, support: dict) -> list[str]:

@@ -231,6 +231,10 @@ def build_space(theory: Theory, spec, pattern: SupportPattern, settings=None) ->
     (one per listed event) followed by one group per instance of every
     independence clause (a pair of settings tuples: each tuple with its
     moved parties at their first setting, as :mod:`nogo.compile` does).
+    Stages: check and resolve the declarations; one variable per joint
+    assignment (:func:`_variables`); the pattern's facts
+    (:func:`_fact_groups`); the independence instances
+    (:func:`_independence_groups`).
 
     Example
     -------
@@ -245,18 +249,31 @@ def build_space(theory: Theory, spec, pattern: SupportPattern, settings=None) ->
     guard_bundle(theory, spec)
     check_readable(theory, assumptions)
     events = present_events(sc, assumptions)
-    names = [e.name for e in events]
-    n_party = len(sc.parties)
     if settings is None:
         settings = sc.setting_tuples()
     else:
         settings = [s for s in sc.setting_tuples() if s in set(settings)]
+    joint, var = _variables(sc, events, settings)
+    groups, fact_vars = _fact_groups(pattern, len(sc.parties), settings, joint, var)
+    notes: list[str] = []
+    buckets = _independence_groups(sc, assumptions, [e.name for e in events], settings, joint, var, groups, notes)
+    return SupportSpace(sc, label, tuple(x.name for x in assumptions), tuple(events), settings, joint, var,
+                        groups, fact_vars, buckets, notes, pattern)
+
+
+def _variables(sc, events, settings) -> tuple[dict, dict]:
+    """The joint assignments at each settings tuple, and one boolean variable (from 1) per (settings, assignment)."""
     joint: dict = {}
     var: dict = {}
     for s in settings:
         joint[s] = joint_at(sc, events, s)
         for e in joint[s]:
             var[(s, e)] = len(var) + 1
+    return joint, var
+
+
+def _fact_groups(pattern: SupportPattern, n_party: int, settings, joint: dict, var: dict):
+    """One group per observed fact at a kept settings tuple: its variables are the joints showing the outcomes."""
     groups: list[Group] = []
     fact_vars: dict[int, list[int]] = {}
     by_obs: dict = {}
@@ -269,10 +286,27 @@ def build_space(theory: Theory, spec, pattern: SupportPattern, settings=None) ->
             g = Group(len(groups), kind, s, a)
             groups.append(g)
             fact_vars[g.index] = by_obs.get((s, a), [])
+    return groups, fact_vars
+
+
+def _independence_groups(sc, assumptions, names, settings, joint: dict, var: dict,
+                         groups: list[Group], notes: list[str]) -> dict:
+    """Append one group per instance of every independence clause; returns each group's two marginal maps."""
+    kept_s = set(settings)
     buckets: dict = {}
-    notes: list[str] = []
-    marg: dict = {}
+    marg: dict = {}  # (settings, kept indices) -> marginal map, shared by every clause keeping them
     var_ids = {t: [var[(t, e)] for e in joint[t]] for t in settings}
+
+    def marginal(t, idx):
+        if (t, idx) not in marg:
+            get = operator.itemgetter(*idx)
+            m: dict = {}
+            for e, x in zip(joint[t], var_ids[t]):
+                v = get(e)
+                m.setdefault(v if len(idx) > 1 else (v,), []).append(x)
+            marg[(t, idx)] = m
+        return marg[(t, idx)]
+
     for a in assumptions:
         for ci, c in enumerate(a.clauses):
             reading = support_independence(c)
@@ -282,26 +316,11 @@ def build_space(theory: Theory, spec, pattern: SupportPattern, settings=None) ->
             pr = project_independence(sc, c_events, c_of, names, a.name, notes)
             if pr is None:
                 continue
-            kept, idx = pr.kept, pr.idx
             for s in settings:
                 base = pr.base[s]
                 if base == s or base not in kept_s:
                     continue
-                left: dict = {}
-                right: dict = {}
-                for side, t in ((left, s), (right, base)):
-                    key = (t, idx)
-                    if key not in marg:  # the marginal map at t, shared by every clause keeping idx
-                        get = operator.itemgetter(*idx)
-                        m: dict = {}
-                        ids = var_ids[t]
-                        for e, x in zip(joint[t], ids):
-                            v = get(e)
-                            m.setdefault(v if len(idx) > 1 else (v,), []).append(x)
-                        marg[key] = m
-                    side.update(marg[key])
-                g = Group(len(groups), "independent", s, (), base, a.name, ci, tuple(kept), tuple(c_of))
+                g = Group(len(groups), "independent", s, (), base, a.name, ci, tuple(pr.kept), tuple(c_of))
                 groups.append(g)
-                buckets[g.index] = (left, right)
-    return SupportSpace(sc, label, tuple(x.name for x in assumptions), tuple(events), settings, joint, var,
-                        groups, fact_vars, buckets, notes, pattern)
+                buckets[g.index] = (dict(marginal(s, pr.idx)), dict(marginal(base, pr.idx)))
+    return buckets

@@ -118,122 +118,143 @@ def build_proof(space: SupportSpace, core: list[int], theory_file: str = "") -> 
     Returns a :class:`Proof` whose steps are ordered by propagation round,
     so each cites only earlier steps.  Statements are widened from full
     assignments of an assumption's events to the shortest partial
-    assignments that the earlier rounds already exclude.
+    assignments that the earlier rounds already exclude.  Stages: propagate
+    forwards to the conflict; walk back from it to what is needed
+    (:func:`_needed`); number the steps (:func:`_steps`).
     """
     prop: Propagation = propagate(space, core, stop_at_conflict=True)
     if prop.conflict is None:
         raise ValueError("the given groups are not contradictory; no proof")
+    needed = _needed(space, prop)
+    steps, assumptions = _steps(space, needed)
+    used_assumptions = tuple(a for a in space.assumptions if a in assumptions)
+    pat = space.pattern
+    return Proof(theory_file, space.label, space.names, space.scenario.party_names, steps, _read_out_notes(space),
+                 pat.title if pat else "", pat.zero_test if pat else "declared", used_assumptions,
+                 len(needed.facts_used) + (1 if needed.possible else 0))
+
+
+@dataclass
+class _Needed:
+    """What the contradiction needs, found backwards from it."""
+
+    facts_used: set[int]  # groups of observed zeros cited
+    cubes: dict[tuple, list[dict[int, str]]]  # (round, group, direction) -> widened partial assignments
+    end_settings: tuple[str, ...]  # where the contradiction holds
+    end_outcomes: tuple[str, ...]  # its possible observed outcomes (empty = normalisation)
+    end_vars: list[int]  # the joint assignments the contradiction rules out
+    possible: bool  # the conflict is with a declared possibility (else with normalisation)
+
+
+def _matching(joint, cube: dict[int, str]):
+    """The joint assignments of *joint* that agree with the partial assignment *cube*."""
+    return (e for e in joint if all(e[k] == val for k, val in cube.items()))
+
+
+def _needed(space: SupportSpace, prop: Propagation) -> _Needed:
+    """Walk back from the conflict, round by round: the facts and transfer cubes each exclusion rests on."""
     dead = prop.dead
-    names = space.names
-    n_party = len(space.scenario.parties)
     groups = space.groups
-
-    def rnd(x):
-        r = dead[x]
-        return 0 if r[0] == "fact" else r[1]
-
     facts_used: set[int] = set()
     needs: dict[tuple, set] = {}  # (round, group, direction) -> values needed
-    supplier: dict[int, tuple] = {}  # var -> the step key that excluded it
 
     def need(x):
         r = dead[x]
         if r[0] == "fact":
             facts_used.add(r[1])
-            supplier[x] = ("fact", groups[r[1]].settings)
         else:
-            key = r[1:4]
-            needs.setdefault(key, set()).add(r[4])
+            needs.setdefault(r[1:4], set()).add(r[4])
 
     kind, what = prop.conflict
     if kind == "possible":
         g = groups[what]
-        end_s, end_a = g.settings, g.outcomes
-        end_vars = space.fact_vars[what]
+        end_s, end_a, end_vars = g.settings, g.outcomes, space.fact_vars[what]
     else:
-        end_s, end_a = what, ()
-        end_vars = space.vars_at(what)
+        end_s, end_a, end_vars = what, (), space.vars_at(what)
     for x in end_vars:
         need(x)
 
     cubes: dict[tuple, list[dict[int, str]]] = {}
     for r in range(prop.rounds, 0, -1):
         for key in sorted(k for k in needs if k[0] == r):
-            _, gi, direction = key
-            g = groups[gi]
-            left, right = space.buckets[gi]
-            s_from = g.other if direction == 0 else g.settings
-            idx = [names.index(n) for n in g.events]
-            here = space.joint[s_from]
-            found: list[dict[int, str]] = []
-            for v in sorted(needs[key]):
-                if any(all(v[idx.index(i)] == val for i, val in c.items()) for c in found):
-                    continue
-                cube = dict(zip(idx, v))
-                for i in reversed(idx):
-                    trial = {k: val for k, val in cube.items() if k != i}
-                    if all(space.var[(s_from, e)] in dead and rnd(space.var[(s_from, e)]) < r
-                           for e in here if all(e[k] == val for k, val in trial.items())):
-                        cube = trial
-                found.append(cube)
+            s_from, found = _widened(space, dead, key, needs[key])
             cubes[key] = found
             for c in found:
-                for e in here:
-                    if all(e[k] == val for k, val in c.items()):
-                        x = space.var[(s_from, e)]
-                        need(x)
-    # the suppliers of transferred variables, for citing
-    for x, r in dead.items():
-        if r[0] == "transfer" and r[1:4] in cubes:
-            supplier.setdefault(x, r[1:4])
+                for e in _matching(space.joint[s_from], c):
+                    need(space.var[(s_from, e)])
+    return _Needed(facts_used, cubes, end_s, end_a, end_vars, kind == "possible")
 
-    # number the steps: observed facts per settings tuple, then transfers by round
+
+def _widened(space: SupportSpace, dead: dict, key: tuple, values: set) -> tuple[tuple[str, ...], list[dict[int, str]]]:
+    """The settings a transfer starts from, and the needed values widened to the shortest cubes already excluded.
+
+    An event is dropped from a cube when every joint assignment matching the rest
+    was excluded in an earlier round (or is an observed zero).
+    """
+    r, gi, direction = key
+    g = space.groups[gi]
+    s_from = g.other if direction == 0 else g.settings
+    idx = [space.names.index(n) for n in g.events]
+    here = space.joint[s_from]
+
+    def excluded_before(e) -> bool:
+        x = space.var[(s_from, e)]
+        return x in dead and (0 if dead[x][0] == "fact" else dead[x][1]) < r
+
+    found: list[dict[int, str]] = []
+    for v in sorted(values):
+        if any(all(v[idx.index(i)] == val for i, val in c.items()) for c in found):
+            continue
+        cube = dict(zip(idx, v))
+        for i in reversed(idx):
+            trial = {k: val for k, val in cube.items() if k != i}
+            if all(excluded_before(e) for e in _matching(here, trial)):
+                cube = trial
+        found.append(cube)
+    return s_from, found
+
+
+def _covering(steps: list[Step], names, s, e) -> int:
+    """The step that excludes joint assignment e at s (earliest statement that matches)."""
+    for step in steps:
+        for stt in step.statements:
+            if stt.settings == s and all(e[names.index(k)] == v for k, v in stt.cube):
+                return step.number
+    raise AssertionError("uncovered case in a proof under construction")
+
+
+def _steps(space: SupportSpace, needed: _Needed) -> tuple[list[Step], set[str]]:
+    """Number the steps: observed facts per settings tuple, then transfers by round, then the contradiction."""
+    names, groups = space.names, space.groups
     steps: list[Step] = []
-    number: dict[tuple, int] = {}
     fact_by_s: dict[tuple, list[tuple]] = {}
-    for gi in facts_used:
+    for gi in needed.facts_used:
         g = groups[gi]
         fact_by_s.setdefault(g.settings, []).append(g.outcomes)
     for s in sorted(fact_by_s):
-        n = len(steps) + 1
-        number[("fact", s)] = n
         st = [Statement(s, tuple(zip(space.scenario.party_names, a))) for a in sorted(fact_by_s[s])]
-        steps.append(Step(n, "observed", s, st))
+        steps.append(Step(len(steps) + 1, "observed", s, st))
 
-    def covering(s, e) -> int:
-        """The step that excludes joint assignment e at s (earliest statement that matches)."""
-        for step in steps:
-            for stt in step.statements:
-                if stt.settings == s and all(e[names.index(k)] == v for k, v in stt.cube):
-                    return step.number
-        raise AssertionError("uncovered case in a proof under construction")
+    def cited(pairs):
+        """The steps that exclude each (settings, joint assignment), and the cases for readers."""
+        uses, cases = set(), []
+        for s, e in pairs:
+            k = _covering(steps, names, s, e)
+            uses.add(k)
+            cases.append((tuple(zip(names, e)), k))
+        return sorted(uses), cases
 
-    assumptions = {}
-    for key in sorted(cubes):
+    assumptions: set[str] = set()
+    for key in sorted(needed.cubes):
         _, gi, direction = key
         g = groups[gi]
         s_from, s_to = (g.other, g.settings) if direction == 0 else (g.settings, g.other)
-        stmts = [Statement(s_to, tuple((names[i], val) for i, val in sorted(c.items()))) for c in cubes[key]]
-        uses, cases = set(), []
-        for c in cubes[key]:
-            for e in space.joint[s_from]:
-                if all(e[k] == val for k, val in c.items()):
-                    k = covering(s_from, e)
-                    uses.add(k)
-                    cases.append((tuple(zip(names, e)), k))
-        n = len(steps) + 1
-        assumptions[g.assumption] = True
-        steps.append(Step(n, "transfer", s_to, stmts, sorted(uses), g.assumption, g.clause, "", s_from,
+        stmts = [Statement(s_to, tuple((names[i], val) for i, val in sorted(c.items()))) for c in needed.cubes[key]]
+        uses, cases = cited((s_from, e) for c in needed.cubes[key] for e in _matching(space.joint[s_from], c))
+        assumptions.add(g.assumption)
+        steps.append(Step(len(steps) + 1, "transfer", s_to, stmts, uses, g.assumption, g.clause, "", s_from,
                           cases=cases))
-    uses, cases = set(), []
-    for x in end_vars:
-        s, e = space.decode(x)
-        k = covering(s, e)
-        uses.add(k)
-        cases.append((tuple(zip(names, e)), k))
-    steps.append(Step(len(steps) + 1, "contradiction", end_s, [], sorted(uses), outcomes=end_a, cases=cases))
-    used_assumptions = tuple(a for a in space.assumptions if a in assumptions)
-    pat = space.pattern
-    return Proof(theory_file, space.label, names, space.scenario.party_names, steps, _read_out_notes(space),
-                 pat.title if pat else "", pat.zero_test if pat else "declared", used_assumptions,
-                 len(facts_used) + (1 if kind == "possible" else 0))
+    uses, cases = cited(space.decode(x) for x in needed.end_vars)
+    steps.append(Step(len(steps) + 1, "contradiction", needed.end_settings, [], uses,
+                      outcomes=needed.end_outcomes, cases=cases))
+    return steps, assumptions
