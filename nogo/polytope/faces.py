@@ -200,7 +200,7 @@ def ray_exit(Z: np.ndarray, r: np.ndarray) -> tuple[list[int], int] | None:
     top = float(np.max(vals))
     on = vals >= top - 1e-7 * max(1.0, abs(top), float(np.max(np.abs(vals))))
     try:
-        a, b = _plane(Z, on)
+        a, b = plane(Z, on)
     except PolytopeError:
         return None
     tight = Z @ np.array(a, dtype=np.int64) == b
@@ -211,7 +211,7 @@ def ray_exit(Z: np.ndarray, r: np.ndarray) -> tuple[list[int], int] | None:
     return (a, b) if affine_rank(Z[tight]) == k - 1 else None
 
 
-def _plane(Z: np.ndarray, on: np.ndarray) -> tuple[list[int], int]:
+def plane(Z: np.ndarray, on: np.ndarray) -> tuple[list[int], int]:
     """An integer (a, b) with a·z = b on the rows *on* and a·z <= b on all of Z (rows *on* span a hyperplane)."""
     k = Z.shape[1]
     X, nullity = _zmat([[int(v) for v in t] + [-1] for t in Z[on]], k + 1).nullspace()
@@ -268,7 +268,7 @@ class FaceBank:
         Z, cols = _local(self.X, idx)
         e = Z.shape[1]
         gens, order = self.graph.stabiliser([phi])
-        if len(idx) - e <= self.leaf_excess or order <= 2:
+        if len(idx) - e <= max(1, self.leaf_excess) or order <= 2:  # simplices and small faces: one hull
             self.stats["ridge hulls"] += 1
             out = []
             for a, b in _hull_ints(Z):
