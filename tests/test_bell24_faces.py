@@ -7,11 +7,9 @@ Check values and their sources:
 * Two parties, three binary settings: 684 facets in 3 classes (positivity 36,
   CHSH 72, I3322 576); D. Collins and N. Gisin, J. Phys. A 37, 1775 (2004)
   (class sizes from memory, as in tests/test_symmetric_graph.py).
-* Local friendliness, three settings: 932 facets; K.-W. Bong et al., Nature
-  Physics 16, 1199 (2020), arXiv:1907.05607.
 
-The faces route must give exactly the facet list of the route that lists the
-group (an independent canonical form: smallest image of the incidence set).
+The whole symmetric route with ``classes="faces"`` is compared with the route
+that lists the group in tests/test_symmetric_graph.py.
 """
 
 from __future__ import annotations
@@ -21,11 +19,9 @@ import pytest
 
 pytest.importorskip("pynauty")
 
-from nogo.compile import compile_bundle  # noqa: E402
-from nogo.polytope import derive_symmetric  # noqa: E402
 from nogo.polytope.canon import GraphClasses  # noqa: E402
 from nogo.polytope.faces import FaceBank, PointGraph, orbit  # noqa: E402
-from nogo.symmetry import bundle_generators, generators, permutation  # noqa: E402
+from nogo.symmetry import generators, permutation  # noqa: E402
 
 from test_symmetric_graph import _deterministic  # noqa: E402
 
@@ -67,21 +63,3 @@ def test_leaf_threshold_does_not_change_the_result(theory):
     r1 = fb1.decompose(np.ones(len(X), dtype=bool))
     assert fb0.stats["recursive faces"] > 0 and fb1.stats["recursive faces"] == 0
     assert sorted((int(f[0].sum()), o) for f, o in r0) == sorted((int(f[0].sum()), o) for f, o in r1)
-
-
-@pytest.mark.parametrize("name,bundle,count,by", [
-    ("bell-2x3", "Bell-local", 684, "canonical form of the point set"),
-    # points that are not 0/1 in probability coordinates: the faces route hands over to the canonical graph
-    ("friends-2x3", "local-friendliness", 932, "canonical graph"),
-])
-def test_faces_route_equals_listed_route(theory, name, bundle, count, by):
-    th = theory(name)
-    model = compile_bundle(th, bundle)
-    gens = bundle_generators(th, bundle)
-    L = derive_symmetric(model, generators=gens, classes="list")
-    F = derive_symmetric(model, generators=gens, classes="faces")
-    assert L.status == F.status == "complete"
-    assert len(F.facets) == len(L.facets) == count
-    assert {(f.a, f.b) for f in F.facets} == {(f.a, f.b) for f in L.facets}
-    assert sorted(F.class_sizes) == sorted(L.class_sizes)
-    assert F.stats["classes by"].startswith(by)

@@ -6,7 +6,7 @@ lifted positivity face has 192 of 256), the ridges of a class
 representative are found by the same decomposition one level down, under
 the stabiliser of that face, and so on (D. Bremner, M. Dutour Sikirić,
 A. Schürmann, "Polyhedral representation conversion up to symmetries", CRM
-Proc. Lecture Notes 48, 45 (2009), arXiv:math/0702239, §3–4; T. Christof and
+Proceedings & LN 48, 45 (2009), arXiv:math/0702239, §3–4; T. Christof and
 G. Reinelt, Int. J. Comput. Geom. Appl. 11, 423 (2001)).  What makes it
 finish:
 
@@ -174,41 +174,6 @@ def _local(X: np.ndarray, idx: np.ndarray) -> tuple[np.ndarray, list[int]]:
             cols.append(j)
             r += 1
     return np.ascontiguousarray(P[:, cols]).astype(np.int64), cols
-
-
-def ray_exit(Z: np.ndarray, r: np.ndarray) -> tuple[list[int], int] | None:
-    """The facet through which the ray from the centroid of Z in direction r leaves conv(Z), or None.
-
-    HiGHS finds the exit point and the points tight there (a finder only); the
-    facet through them is computed exactly (integer null space) and kept only
-    when every point satisfies it and its tight points have affine rank dim - 1.
-    """
-    from scipy.optimize import linprog
-
-    n, k = Z.shape
-    A = np.zeros((k + 1, n + 1))
-    A[:k, :n] = Z.T
-    A[:k, n] = -r
-    A[k, :n] = 1
-    cost = np.zeros(n + 1)
-    cost[n] = -1
-    res = linprog(cost, A_eq=A, b_eq=np.append(Z.mean(axis=0), 1.0), bounds=[(0, None)] * (n + 1), method="highs")
-    if res.status != 0:
-        return None
-    h = -np.asarray(res.eqlin.marginals[:k])
-    vals = Z @ h
-    top = float(np.max(vals))
-    on = vals >= top - 1e-7 * max(1.0, abs(top), float(np.max(np.abs(vals))))
-    try:
-        a, b = plane(Z, on)
-    except PolytopeError:
-        return None
-    tight = Z @ np.array(a, dtype=np.int64) == b
-    if not np.array_equal(tight, on) and not tight[on].all():
-        return None
-    from .adjacency import affine_rank
-
-    return (a, b) if affine_rank(Z[tight]) == k - 1 else None
 
 
 def plane(Z: np.ndarray, on: np.ndarray) -> tuple[list[int], int]:
