@@ -63,3 +63,26 @@ def test_leaf_threshold_does_not_change_the_result(theory):
     r1 = fb1.decompose(np.ones(len(X), dtype=bool))
     assert fb0.stats["recursive faces"] > 0 and fb1.stats["recursive faces"] == 0
     assert sorted((int(f[0].sum()), o) for f, o in r0) == sorted((int(f[0].sum()), o) for f, o in r1)
+
+
+def test_interrupted_run_keeps_only_top_level_classes(theory):
+    # a deadline met deep in the recursion: the classes kept for a partial result are facets of the whole set
+    from nogo.polytope.adjacency import OutOfTime, affine_rank
+
+    fb, X = _bank(theory("bell-2x3").scenario, leaf_excess=0)
+    calls = {"n": 0}
+
+    def tick():
+        calls["n"] += 1
+        if calls["n"] > 6:
+            raise OutOfTime()
+    fb._check_time = tick
+    with pytest.raises(OutOfTime):
+        fb.decompose(np.ones(len(X), dtype=bool))
+    assert fb.stats["recursive faces"] > 0  # the deadline was met below the top level
+    dim = affine_rank(X)
+    assert fb.reps
+    for (m, c, beta), _ in fb.reps.values():
+        vals = X @ c
+        assert np.all(vals <= beta) and np.array_equal(vals == beta, m)
+        assert affine_rank(X[m]) == dim - 1

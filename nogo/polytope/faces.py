@@ -288,7 +288,8 @@ class FaceBank:
         else:
             a, b = first_facet(Z, self.rng)
             add(self._lift(a, cols), b)
-        self.reps = reps
+        if phi.all():
+            self.reps = reps  # the top level's classes so far, kept for a partial result
         done = 0
         while open_:
             if done and _skippable([reps[q] for q in open_], e, gens):
