@@ -4,6 +4,8 @@ Check values and their sources:
 
 * Two parties, two binary settings: 24 facets in 2 classes (16 CHSH, 8
   positivity); A. Fine, Phys. Rev. Lett. 48, 291 (1982) (common practice).
+* Three parties, two binary settings: 53,856 facets in 46 classes; C. Śliwa,
+  Phys. Lett. A 317, 165 (2003) (slow test).
 * Two parties, three binary settings: 684 facets in 3 classes (positivity 36,
   CHSH 72, I3322 576); D. Collins and N. Gisin, J. Phys. A 37, 1775 (2004)
   (class sizes from memory, as in tests/test_symmetric_graph.py).
@@ -86,3 +88,18 @@ def test_interrupted_run_keeps_only_top_level_classes(theory):
         vals = X @ c
         assert np.all(vals <= beta) and np.array_equal(vals == beta, m)
         assert affine_rank(X[m]) == dim - 1
+
+
+@pytest.mark.slow
+def test_faces_route_three_parties(theory):
+    # Śliwa, Phys. Lett. A 317, 165 (2003): 53,856 facets in 46 classes (about 130 s here on one core)
+    from nogo.compile import compile_bundle
+    from nogo.polytope import derive_symmetric
+    from nogo.symmetry import bundle_generators
+
+    th = theory("bell-3x2")
+    P = derive_symmetric(compile_bundle(th, "Bell-local"), generators=bundle_generators(th, "Bell-local"),
+                         classes="faces")
+    assert P.status == "complete"
+    assert P.stats["classes by"].startswith("canonical form of the point set")
+    assert len(P.facets) == 53_856 and len(P.classes) == 46
