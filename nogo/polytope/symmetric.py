@@ -52,8 +52,10 @@ def derive_symmetric(model: LinearModel, frame: str = "auto", *, generators: lis
     ``force``: decompose even when there are many points per dimension.
     ``classes``: how two facets are put in one class: ``"list"`` by the group
     listed on the points (its smallest image), ``"graph"`` by a canonical
-    coloured graph (:mod:`.canon`, nauty; the group is never listed), ``"auto"``
-    the graph when the group has more than 20,000 elements (listing stops there).
+    coloured graph (:mod:`.canon`, nauty; the group is never listed), ``"faces"``
+    by canonical forms of point sets with a bank of faces (:mod:`.faces`; points
+    0/1 in probability coordinates and no *store*, else the graph), ``"auto"`` the
+    graph when the group has more than 20,000 elements (listing stops there).
     ``store``: an optional :class:`nogo.store.RunPieces` where each closed
     class is written as it is found and from which an interrupted run resumes.
 
@@ -68,8 +70,8 @@ def derive_symmetric(model: LinearModel, frame: str = "auto", *, generators: lis
     """
     from ..symmetry import lift_to_model
 
-    if classes not in ("auto", "list", "graph"):
-        raise ValueError(f"classes must be 'auto', 'list' or 'graph', not {classes!r}")
+    if classes not in ("auto", "list", "graph", "faces"):
+        raise ValueError(f"classes must be 'auto', 'list', 'graph' or 'faces', not {classes!r}")
     gens = list(generators or [])
     lifted, unlifted = [], []
     for g in gens:
@@ -189,77 +191,117 @@ def _orbit_bfs(a, b, moves: list[np.ndarray], limit: int) -> np.ndarray:
     return np.array(sorted(seen), dtype=object)
 
 
+def _group_for(run: _Run, points, lifted, how: str):
+    """The listed group (up to _LIST_LIMIT elements) or, above that, the group by generators and nauty."""
+    stats = run.stats
+    if how in ("auto", "list"):
+        try:  # listed up to _LIST_LIMIT elements (the enumeration stops there)
+            group, refused = enumerate_group(points, run.fr, [(g.label, p) for g, p in zip(lifted, run.perms)],
+                                             limit=_LIST_LIMIT if how == "auto" else 400_000, with_mats=False)
+        except RuntimeError:
+            pass
+        else:
+            if refused:
+                raise PolytopeError("a verified symmetry of the model does not map the certified points onto "
+                                    "themselves")
+            stats["classes by"] = "smallest image under the listed group"
+            return group
+    from .canon import has_nauty
+
+    if not has_nauty():
+        raise PolytopeError(f"the symmetry group has more than {_LIST_LIMIT} elements, too many to list; "
+                            "telling facet classes apart needs pynauty (pip install pynauty)")
+    group = _Graph(run, points, lifted)
+    stats["classes by"] = "canonical graph (nauty)"
+    stats["graph group order"] = group.classes.graph_order
+    return group
+
+
+def _decompose(run: _Run, Y, den, points, group, store, how: str):
+    """One adjacency decomposition: (class representatives, 'complete' or 'partial', counters)."""
+    if isinstance(group, _Graph) and how == "faces" and store is None and _zero_one(group.classes.X):
+        return _decompose_faces(run, Y, group)
+    dec_args = dict(classes=group.classes, max_depth=4, seeds=16) if isinstance(group, _Graph) else {}
+    dec = Decomposition(Y, getattr(group, "perms", None), deadline=run.deadline,
+                        seed=int(run.rng.integers(1 << 30)), progress=run.report, **dec_args)
+    resumed = store.load(len(points)) if store is not None else None
+    if store is not None:
+        dec.on_class = lambda F, reps: store.save(len(points), _frame_form(F, den), F.orbit, sorted(
+            (_frame_form(r, den), r.orbit) for r in reps.values()))
+    try:
+        if resumed:
+            run.stats["classes resumed"] = len(resumed["closed"])
+            reps = dec.run(start=[_int_form(ab, den) for ab, _ in resumed["known"]],
+                           done_keys={dec.key_of(*_int_form(ab, den)) for ab in resumed["closed"]})
+        else:
+            reps = dec.run()
+    except OutOfTime:
+        return list(getattr(dec, "reps", {}).values()), "partial", dec.stats
+    return reps, "complete", dec.stats
+
+
+def _zero_one(X) -> bool:
+    X = np.asarray(X)
+    return bool(np.all((X == 0) | (X == 1)))
+
+
+def _decompose_faces(run: _Run, Y, group: "_Graph"):
+    """The decomposition on point sets with the bank of faces (:mod:`.faces`); representatives in frame form."""
+    from .adjacency import ClassRep
+    from .faces import FaceBank, PointGraph, plane
+
+    gc = group.classes
+    run.stats["classes by"] = "canonical form of the point set (nauty), bank of faces"
+    fb = FaceBank(PointGraph(gc.st, gc.X, gc.order), deadline=run.deadline,
+                  seed=int(run.rng.integers(1 << 30)), progress=run.report)
+    status = "complete"
+    try:
+        found = fb.decompose(np.ones(len(gc.X), dtype=bool))
+    except OutOfTime:
+        found, status = list(getattr(fb, "reps", {}).values()), "partial"
+    reps = []
+    Yi = Y.astype(np.int64)
+    for (m, _, _), orbit in found:
+        a, b = plane(Yi, m)
+        reps.append(ClassRep(tuple(a), int(b), m, orbit, gc.key(a)[0]))
+    if fb.stats["skipped orbits"]:
+        run.notes.append(f"{fb.stats['skipped orbits']} orbits of faces' facets were left unexpanded by Balinski's "
+                         "rules (fewer than dim facets, or all through one point): the list is still complete")
+    return reps, status, fb.stats
+
+
 def _classes(run: _Run, lifted: list, store, how: str = "auto") -> Polytope:
     fr, k = run.fr, run.fr.dim
-    stats, notes = run.stats, run.notes
+    stats = run.stats
     stats["route"] = "symmetric"
     t_dec = t_check = 0.0
-    status = "complete"
     verified: dict[tuple, object] = {}
     while True:
         points = list(run.points)
         Y, den = _coords_matrix(fr, points)
         Y = Y.astype(np.int64) if int(np.max(np.abs(Y))) < 2**40 else Y
-        group = None
         t_group = time.perf_counter()
-        if how in ("auto", "list"):
-            try:  # listed up to _LIST_LIMIT elements (the enumeration stops there)
-                group, refused = enumerate_group(points, fr, [(g.label, p) for g, p in zip(lifted, run.perms)],
-                                                 limit=_LIST_LIMIT if how == "auto" else 400_000,
-                                                 with_mats=False)
-            except RuntimeError:
-                group = None
-            else:
-                if refused:
-                    raise PolytopeError("a verified symmetry of the model does not map the certified points onto "
-                                        "themselves")
-                stats["classes by"] = "smallest image under the listed group"
-                dec_args = dict()
-        if group is None:
-            from .canon import has_nauty
-
-            if not has_nauty():
-                raise PolytopeError(f"the symmetry group has more than {_LIST_LIMIT} elements, too many to list; "
-                                    "telling facet classes apart needs pynauty (pip install pynauty)")
-            group = _Graph(run, points, lifted)
-            stats["classes by"] = "canonical graph (nauty)"
-            stats["graph group order"] = group.classes.graph_order
-            dec_args = dict(classes=group.classes, max_depth=4, seeds=16)
+        group = _group_for(run, points, lifted, how)
         stats["group order"] = group.order
         stats["times"]["group"] = stats["times"].get("group", 0.0) + time.perf_counter() - t_group
         t0 = time.perf_counter()
-        dec = Decomposition(Y, getattr(group, "perms", None), deadline=run.deadline,
-                            seed=int(run.rng.integers(1 << 30)), progress=run.report, **dec_args)
-        resumed = store.load(len(points)) if store is not None else None
-        if store is not None:
-            dec.on_class = lambda F, reps: store.save(len(points), _frame_form(F, den), F.orbit, sorted(
-                (_frame_form(r, den), r.orbit) for r in reps.values()))
-        try:
-            if resumed:
-                stats["classes resumed"] = len(resumed["closed"])
-                reps = dec.run(start=[_int_form(ab, den) for ab, _ in resumed["known"]],
-                               done_keys={dec.key_of(*_int_form(ab, den)) for ab in resumed["closed"]})
-            else:
-                reps = dec.run()
-        except OutOfTime:
-            reps = list(getattr(dec, "reps", {}).values())
-            status = "partial"
+        reps, status, counters = _decompose(run, Y, den, points, group, store, how)
         t_dec += time.perf_counter() - t0
         stats["hull_rounds"] += 1
-        for key in ("ridge hulls", "recursive faces", "wraps"):
-            stats[key] = stats.get(key, 0) + dec.stats[key]
+        for key, v in counters.items():
+            stats[key] = stats.get(key, 0) + v
         forms = [_frame_form(r, den) for r in reps]
         if status == "partial":
             break
         t0 = time.perf_counter()
         todo = [ab for ab in forms if ab not in verified]
         qs = [(tuple(fr.full(a)), Fraction(b), (run.rng.normal(size=k) * 1e-4) @ run.G) for a, b in todo]
-        new = []
         answers = run.ask("max", qs) if not run.out_of_time() else None
         t_check += time.perf_counter() - t0
         if answers is None:
             status = "partial"
             break
+        new = []
         for ab, ans in zip(todo, answers):
             if ans.valid:
                 verified[ab] = ans
