@@ -53,12 +53,17 @@ def _unraisable(hook_args) -> None:  # pragma: no cover - exercised in a subproc
     Our SIGINT handler raises wherever the main thread is, which may be a weakref callback
     (importlib's module-lock clean-up during an import) or a ``__del__``; CPython prints
     "Exception ignored" there and goes on, and the command would finish as if no Ctrl-C came.
-    ``interrupt_main`` re-delivers it at the next bytecode, in ordinary code.
+    It is re-delivered by ``interrupt_main`` from a short-lived thread, once the main thread has
+    left this hook: called here directly, the handler would run inside the hook (at the check
+    after the call) and CPython would drop the interrupt once more, with a traceback.
     """
     if issubclass(hook_args.exc_type, KeyboardInterrupt):
         import _thread  # noqa: PLC0415
+        import threading  # noqa: PLC0415
 
-        _thread.interrupt_main()
+        t = threading.Timer(0.001, _thread.interrupt_main)
+        t.daemon = True
+        t.start()
         return
     sys.__unraisablehook__(hook_args)
 
