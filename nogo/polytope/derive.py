@@ -271,27 +271,42 @@ class _Run:
 
     def plain_hull(self) -> Polytope:
         """Stage 5-6 of the plain route: hull, the oracle on every facet until all are valid, exact checks."""
-        sc, d, rng, fr = self.sc, self.d, self.rng, self.fr
-        k, G, hull_frame, stats, notes = fr.dim, self.G, self.hull_frame, self.stats, self.notes
-        points, ask, add, report, chunk, workers = self.points, self.ask, self.add, self.report, self.chunk, self.workers
-        out_of_time = self.out_of_time
+        hull, verified, status = self._hull_until_valid()
+        t0 = time.perf_counter()
+        plist = list(self.points)
+        facets, tight_sets = self._exact_facets(hull, verified, plist, status)
+        vertices = plist
+        if hull and status == "complete":
+            vertices = self._vertices_among(hull, tight_sets, plist)
+        stats, notes = self.stats, self.notes
+        stats["times"]["exact facet check"] = time.perf_counter() - t0
+        stats["times"]["total"] = time.perf_counter() - self.t_start
+        stats["points"] = len(plist)
+        if status == "partial":
+            notes.append("time limit reached: the facet list is the hull of the vertices found so far; facets "
+                         "marked unverified were not yet checked against the bundle")
+        model = self.model
+        return Polytope(self.sc, model.label, model.assumptions, self.fr, vertices, self.equations, facets, status,
+                        stats, notes, self.fp)
 
-        def close_under_moves() -> None:
-            self.close_under(self.perms, self.lifted)
-        t_start, equations, fp, model = self.t_start, self.equations, self.fp, self.model
-        # 5. hull, then the oracle on every facet, until every facet is valid
+    def _hull_until_valid(self):
+        """Stage 5: hull the points, ask the oracle on every new facet, add the points beyond; repeat.
+
+        Returns (hull, verified answers by facet, "complete" | "partial")."""
+        fr, k, G, rng, stats = self.fr, self.fr.dim, self.G, self.rng, self.stats
+        batch = self.chunk * max(1, self.workers or 1)
         hull: list[tuple[tuple[int, ...], int]] = []
         verified: dict[tuple[tuple[int, ...], int], Answer] = {}
         status = "complete"
         t_hull = t_check = 0.0
         while True:
-            if out_of_time():
+            if self.out_of_time():
                 status = "partial"
                 break
             t0 = time.perf_counter()
-            report("hull", len(points), k)
+            self.report("hull", len(self.points), k)
             try:
-                hull = _hull_in(fr, hull_frame, list(points), self.deadline)
+                hull = _hull_in(fr, self.hull_frame, list(self.points), self.deadline)
             except HullOutOfTime:
                 status = "partial"
                 break
@@ -300,76 +315,71 @@ class _Run:
             t0 = time.perf_counter()
             todo = [f for f in hull if f not in verified]
             new_points: list[Point] = []
-            for start in range(0, len(todo), chunk * max(1, workers or 1)):
-                if out_of_time():
+            for start in range(0, len(todo), batch):
+                if self.out_of_time():
                     status = "partial"
                     break
-                part = todo[start:start + chunk * max(1, workers or 1)]
-                qs = []
-                for a, b in part:
-                    pert = (rng.normal(size=k) * 1e-4) @ G
-                    qs.append((tuple(fr.full(a)), Fraction(b), pert))
-                for f, ans in zip(part, ask("max", qs)):
+                part = todo[start:start + batch]
+                qs = [(tuple(fr.full(a)), Fraction(b), (rng.normal(size=k) * 1e-4) @ G) for a, b in part]
+                for f, ans in zip(part, self.ask("max", qs)):
                     if ans.valid:
                         verified[f] = ans
                     else:
                         new_points.append(ans.point)
-                report("facets checked", len(verified), len(hull))
+                self.report("facets checked", len(verified), len(hull))
             t_check += time.perf_counter() - t0
             if status == "partial":
                 break
-            if not add(new_points):
+            if not self.add(new_points):
                 if new_points:
                     raise PolytopeError("the oracle returned a point beyond a facet that the hull already holds")
                 break
-            close_under_moves()
+            self.close_under(self.perms, self.lifted)
         stats["times"]["hull"] = t_hull
         stats["times"]["facet checks"] = t_check
+        return hull, verified, status
 
-        # 6. exact facet check: valid on every point, tight on dim-1 affinely independent vertices
-        t0 = time.perf_counter()
-        plist = list(points)
-        Y, den = _coords_matrix(fr, plist)
+    def _exact_facets(self, hull, verified, plist, status) -> tuple[list[HullFacet], list[list[int]]]:
+        """Stage 6: every facet valid on every point and tight on dim-1 affinely independent ones (exact)."""
+        k = self.fr.dim
+        Y, den = _coords_matrix(self.fr, plist)
         facets: list[HullFacet] = []
         tight_sets: list[list[int]] = []
-        if hull:
-            vals = int_matmul([a for a, _ in hull], Y, k)
-            for i, (a, b) in enumerate(hull):
-                row = vals[i]
-                lim = b * den
-                if any(v > lim for v in row):
-                    raise PolytopeError("a hull facet is violated by a certified point")
-                tight = [j for j, v in enumerate(row) if v == lim]
-                tight_sets.append(tight)
-                ans = verified.get((a, b))
-                facets.append(HullFacet(a, b, True if ans else None, len(tight), ans.bound if ans else None,
-                                        ans.method if ans else "", ans.certificate if ans else None))
-            for f, tight in zip(facets, tight_sets):
-                M = _zmat([[1] + [int(v) for v in Y[j]] for j in tight], k + 1)
-                if M.rank() != k:
-                    raise PolytopeError("a hull inequality is not tight on a facet's worth of vertices")
-            if status == "complete":
-                for f in facets:
-                    if f.bound is not None and f.bound != f.b:
-                        raise PolytopeError("a certified bound is below a facet's value at its vertices")
-        # vertices: points where the tight facets have full rank
-        vertices = plist
-        if hull and status == "complete":
-            on: list[list[int]] = [[] for _ in plist]
-            for i, tight in enumerate(tight_sets):
-                for j in tight:
-                    on[j].append(i)
-            vertices = []
-            for j, p in enumerate(plist):
-                M = _zmat([list(hull[i][0]) for i in on[j]], k)
-                if len(on[j]) >= k and M.rank() == k:
-                    vertices.append(p)
-            if len(vertices) < len(plist):
-                notes.append(f"{len(plist) - len(vertices)} certified points found on the way are not vertices")
-        stats["times"]["exact facet check"] = time.perf_counter() - t0
-        stats["times"]["total"] = time.perf_counter() - t_start
-        stats["points"] = len(plist)
-        if status == "partial":
-            notes.append("time limit reached: the facet list is the hull of the vertices found so far; facets "
-                         "marked unverified were not yet checked against the bundle")
-        return Polytope(sc, model.label, model.assumptions, fr, vertices, equations, facets, status, stats, notes, fp)
+        if not hull:
+            return facets, tight_sets
+        vals = int_matmul([a for a, _ in hull], Y, k)
+        for i, (a, b) in enumerate(hull):
+            row = vals[i]
+            lim = b * den
+            if any(v > lim for v in row):
+                raise PolytopeError("a hull facet is violated by a certified point")
+            tight = [j for j, v in enumerate(row) if v == lim]
+            tight_sets.append(tight)
+            ans = verified.get((a, b))
+            facets.append(HullFacet(a, b, True if ans else None, len(tight), ans.bound if ans else None,
+                                    ans.method if ans else "", ans.certificate if ans else None))
+        for tight in tight_sets:
+            M = _zmat([[1] + [int(v) for v in Y[j]] for j in tight], k + 1)
+            if M.rank() != k:
+                raise PolytopeError("a hull inequality is not tight on a facet's worth of vertices")
+        if status == "complete":
+            for f in facets:
+                if f.bound is not None and f.bound != f.b:
+                    raise PolytopeError("a certified bound is below a facet's value at its vertices")
+        return facets, tight_sets
+
+    def _vertices_among(self, hull, tight_sets, plist) -> list:
+        """The points where the tight facets have full rank (the others are noted)."""
+        k = self.fr.dim
+        on: list[list[int]] = [[] for _ in plist]
+        for i, tight in enumerate(tight_sets):
+            for j in tight:
+                on[j].append(i)
+        vertices = []
+        for j, p in enumerate(plist):
+            M = _zmat([list(hull[i][0]) for i in on[j]], k)
+            if len(on[j]) >= k and M.rank() == k:
+                vertices.append(p)
+        if len(vertices) < len(plist):
+            self.notes.append(f"{len(plist) - len(vertices)} certified points found on the way are not vertices")
+        return vertices
