@@ -82,30 +82,27 @@ def scenario_graph(scenario) -> _Structure:
     refines them to the orbits of the verified group on the forest's nodes (so a
     read-out setting that no verified move exchanges is coloured apart).
     """
-    nid = 0
     parties, settings, outs = set(), set(), set()
     adj: dict[int, list[int]] = {}
     outcome_node: dict[tuple[int, str, str], int] = {}
+
+    def node(kind: set, parent: int | None = None) -> int:
+        """A new forest node of one kind, joined to its parent."""
+        n = len(adj)
+        kind.add(n)
+        adj[n] = []
+        if parent is not None:
+            adj[parent].append(n)
+        return n
+
     for i, p in enumerate(scenario.parties):
-        pn = nid
-        nid += 1
-        parties.add(pn)
-        adj[pn] = []
+        pn = node(parties)
         for x in p.settings:
-            sn = nid
-            nid += 1
-            settings.add(sn)
-            adj[pn].append(sn)
-            adj[sn] = []
+            sn = node(settings, pn)
             for a in p.outcomes:
-                on = nid
-                nid += 1
-                outs.add(on)
-                adj[sn].append(on)
-                adj[on] = []
-                outcome_node[(i, x, a)] = on
+                outcome_node[(i, x, a)] = node(outs, sn)
     coords = scenario.coordinates()
-    coord0 = nid
+    nid = coord0 = len(adj)
     for s, a in coords:
         cn = nid
         nid += 1
