@@ -113,7 +113,8 @@ def _resolve(node: str, outcomes: int, own: str | None, kids, assignment: dict[s
                 f"(declared earlier in {node}'s lab) and has {what}; nogo.quantum models an earlier observer "
                 f"that is not undone as one plain measurement only",
                 hint=f"declare {reader.name} before {c.name}, or give {c.name} no observers and no choices")
-    return Reading(inner.measurer, inner.setting, tuple(reader.relabel_at(own)[i] for i in inner.relabel),
+    shown = reader.relabel_at(own)
+    return Reading(inner.measurer, inner.setting, tuple(shown[i] for i in inner.relabel),
                    inner.chain + (reader.name,), tuple(c.name for c in earlier) + inner.before)
 
 
