@@ -44,6 +44,7 @@ from .facetclasses import _build, _catalog_names, _raw_orbit, _reduce_versions, 
 from .facetcompare import Comparison, Witness, compare_results  # noqa: F401
 from .facetstore import cache_dir  # noqa: F401 - importable from here as before
 from .facettypes import Facet, FacetClass, FacetResult  # noqa: F401
+from .inequality import Inequality
 from .polytope import Progress, derive_polytope, derive_symmetric
 from .symmetry import bundle_generators
 from .theory import Theory
@@ -51,7 +52,8 @@ from .theory import Theory
 
 def facets(theory: Theory, bundle, *, frame: str = "auto", cache: bool | str | Path = True,
            time_limit: float | None = None, workers: int | None = None, progress: Progress | None = None,
-           seed: int = 1, max_columns: int = 200_000, route: str = "auto") -> FacetResult:
+           seed: int = 1, max_columns: int = 200_000, route: str = "auto", explore: bool = False,
+           start=()) -> FacetResult:
     """Every facet of the set of behaviours that *bundle* allows, in classes.
 
     Parameters
@@ -65,6 +67,10 @@ def facets(theory: Theory, bundle, *, frame: str = "auto", cache: bool | str | P
     progress : callback ``(stage, done, total)``.
     route : "auto" (facets up to symmetry when some relabelling is a verified symmetry of the
         model, :func:`nogo.polytope.derive_symmetric`; else the plain hull), "plain" or "symmetric".
+    explore : classes by faces, large faces sampled by rays and the list then proven complete by
+        closure where the proof goes through, else marked ``"partial"`` (symmetric route).
+    start : inequalities (catalog names, text or :class:`nogo.inequality.Inequality`) that the
+        faces route begins from; those that are not facets of the set are left out with a note.
 
     Returns
     -------
@@ -79,6 +85,7 @@ def facets(theory: Theory, bundle, *, frame: str = "auto", cache: bool | str | P
     (24, [('CHSH', 8), ('positivity', 16)])
     """
     t0 = time.perf_counter()
+    starts = [_start_form(theory, x) for x in start]
     model = compile_bundle(theory, bundle, max_columns=max_columns)
     gens = bundle_generators(theory, bundle)
     theory_file = str(theory.file or "")
@@ -102,9 +109,11 @@ def facets(theory: Theory, bundle, *, frame: str = "auto", cache: bool | str | P
         P = derive_polytope(model, frame, moves=[g.move for g in gens], seed=seed, time_limit=time_limit,
                             workers=workers, progress=progress)
     else:
-        pieces = facetstore.run_pieces(store, key) if store is not None else None
+        faces = explore or bool(starts)
+        pieces = facetstore.run_pieces(store, key) if store is not None and not faces else None
         P = derive_symmetric(model, frame, generators=gens, seed=seed, time_limit=time_limit, workers=workers,
-                             progress=progress, store=pieces, force=(route == "symmetric"))
+                             progress=progress, store=pieces, force=(route == "symmetric"), explore=explore,
+                             start=starts)
     if progress:
         progress("classes", 0, None)
     r = _build(theory_file, P, gens, 0.0)
@@ -115,6 +124,14 @@ def facets(theory: Theory, bundle, *, frame: str = "auto", cache: bool | str | P
     r.seconds = time.perf_counter() - t0
     r.warnings = warnings
     return r
+
+
+def _start_form(theory: Theory, spec) -> tuple[tuple[int, ...], int]:
+    """A start inequality as integers over the scenario's coordinates (the ``<=`` form)."""
+    from .catalog import resolve_inequality
+
+    ineq = spec if isinstance(spec, Inequality) else resolve_inequality(theory.scenario, spec)
+    return ineq.canonical()
 
 
 def compare(theory: Theory, b1, b2, **options) -> Comparison:

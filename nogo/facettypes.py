@@ -113,7 +113,8 @@ class FacetResult:
         return ", ".join(f"{f.text}={q(y)}" for f, y in zip(self.frame.functionals, ys) if y)
 
     def summary(self) -> str:
-        lines = [f"bundle {self.bundle}: {len(self.facets)} facets in {len(self.classes)} classes, "
+        total = sum(c.size for c in self.classes) if self.classes else len(self.facets)
+        lines = [f"bundle {self.bundle}: {total:,} facets in {len(self.classes)} classes, "
                  f"{len(self.vertices)} vertices, dimension {self.dim} ({self.frame.kind} coordinates)"
                  + (" [PARTIAL]" if self.status != "complete" else "")]
         for c in self.classes:

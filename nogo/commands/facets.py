@@ -27,6 +27,13 @@ def add_derive_options(p) -> None:
     p.add_argument("--route", choices=("auto", "symmetric", "plain"), default="auto",
                    help="auto (default): facets class by class under the verified symmetries of the model, "
                         "else one plain hull; plain: always one hull of all vertices (the cross-check)")
+    p.add_argument("--explore", action="store_true",
+                   help="symmetric route by faces: large faces are sampled by random rays instead of decomposed, "
+                        "then the list is proven complete by closure where that proof goes through (else it is "
+                        "marked partial: every class listed is still an exact facet)")
+    p.add_argument("--start", action="append", default=[], metavar="INEQUALITY",
+                   help="a catalog name or inequality text to begin the search from (repeatable); one that is "
+                        "not a facet of the set is left out with a note")
     p.add_argument("--no-cache", action="store_true", help="derive afresh and do not store the result")
     p.add_argument("--cache-dir", default=None,
                    help="folder of the result store (default $NOGO_CACHE, else ./.nogo-cache); a stored "
@@ -110,7 +117,8 @@ def engine_of(args):
 def _options(args) -> dict:
     cache = False if args.no_cache else (Path(args.cache_dir) if args.cache_dir else True)
     return dict(frame=args.coordinates, cache=cache, time_limit=args.time_limit, workers=args.workers,
-                max_columns=args.max_columns, route=args.route)
+                max_columns=args.max_columns, route=args.route, explore=getattr(args, "explore", False),
+                start=list(getattr(args, "start", []) or []))
 
 
 def run(args) -> int:
@@ -160,6 +168,9 @@ def run(args) -> int:
     if r.status == "complete":
         print(f"evidence: every vertex has an exact preimage in the compiled model; every facet has exact "
               f"Farkas multipliers; each is tight on vertices of affine rank {r.dim - 1} ({where})")
+    elif all(f.verified for f in r.polytope.facets):
+        print(f"PARTIAL RESULT: every facet listed has exact Farkas multipliers and is tight on vertices of "
+              f"affine rank {r.dim - 1}, but the list may miss facets (see the notes; {where})")
     else:
         print(f"PARTIAL RESULT (time limit): the list above is the hull of the vertices found so far; "
               f"facets not yet checked against the bundle may not be valid ({where})")

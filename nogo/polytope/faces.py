@@ -34,6 +34,15 @@ finish:
   class must have been expanded.
 * **Cheapest first**: classes are expanded in increasing number of points.
 
+**Exploration** (opt-in, ``sample_above``): a face with more points beyond a
+simplex than that is not decomposed; some of its facets are found by random
+rays from its centroid (:func:`.adjacency.ray_facet`, an LP and exact checks)
+and only those are rotated.  Every class found is still an exact facet, but
+classes may be missing, so a run that sampled any face is not complete.  On
+two parties with four binary settings, started from I4422 (Collins & Gisin,
+J. Phys. A 37, 1775 (2004)), it meets all 175 classes of Zambrini Cruzeiro &
+Gisin (Phys. Rev. A 99, 022104 (2019)) with three faces sampled.
+
 Work is in the probability coordinates, where the points are 0/1 and every
 group element is a permutation of the coordinates: a facet of a face is kept
 as its point set with an integer inequality c·x <= β valid on the face and
@@ -49,7 +58,7 @@ import time
 
 import numpy as np
 
-from .adjacency import OutOfTime, _hull_ints, _wrap_many, first_facet
+from .adjacency import OutOfTime, _hull_ints, _wrap_many, first_facet, ray_facet
 from .ints import PolytopeError, _zmat, primitive
 
 _LEAF_EXCESS = 14  # points beyond a simplex up to which a face takes one direct hull
@@ -196,15 +205,22 @@ class FaceBank:
     """Facets of faces of conv(X), each face's list computed once per orbit of faces (see the module docstring)."""
 
     def __init__(self, graph: PointGraph, *, deadline: float | None = None,
-                 leaf_excess: int = _LEAF_EXCESS, seed: int = 1, progress=None):
+                 leaf_excess: int = _LEAF_EXCESS, seed: int = 1, progress=None,
+                 sample_above: int | None = None, rays: int = 60):
         self.graph = graph
         self.X = graph.X
         self.deadline = deadline
         self.leaf_excess = leaf_excess
+        self.sample_above = sample_above  # exploration: faces with more points beyond a simplex are sampled
+        self.rays = rays
         self.rng = np.random.default_rng(seed)
         self.progress = progress
         self.bank: dict[bytes, list[Facet]] = {}  # key -> facets over canonical positions
-        self.stats = {"ridge hulls": 0, "recursive faces": 0, "wraps": 0, "bank hits": 0, "skipped orbits": 0}
+        self.stats = {"ridge hulls": 0, "recursive faces": 0, "wraps": 0, "bank hits": 0, "skipped orbits": 0,
+                      "sampled faces": 0}
+        self.sampled: set[bytes] = set()  # bank keys of the faces whose facets were sampled, not all found
+        self.expansions: list[list[tuple[np.ndarray, np.ndarray]]] = []  # top level: (ridge, facet across it)
+        self.unexpanded: list[np.ndarray] = []  # top level: classes whose face was sampled
 
     def _check_time(self) -> None:
         if self.deadline is not None and time.perf_counter() > self.deadline:
@@ -219,8 +235,11 @@ class FaceBank:
         else:
             self._check_time()
             # canonical position i holds point pp[i]: store the facets as seen from there
+            n_sampled = self.stats["sampled faces"]
             got = [(m[pp], c[cp], beta) for m, c, beta in self._compute(phi)]
             self.bank[key] = got
+            if self.stats["sampled faces"] > n_sampled:
+                self.sampled.add(key)
         return [_image(f, pp, cp) for f in got]
 
     def _lift(self, a, cols) -> np.ndarray:
@@ -232,6 +251,9 @@ class FaceBank:
         idx = np.flatnonzero(phi)
         Z, cols = _local(self.X, idx)
         e = Z.shape[1]
+        if self.sample_above is not None and len(idx) - e > self.sample_above:
+            self.stats["sampled faces"] += 1
+            return self._sampled(idx, Z, cols)
         gens, order = self.graph.stabiliser([phi])
         if len(idx) - e <= max(1, self.leaf_excess) or order <= 2:  # simplices and small faces: one hull
             self.stats["ridge hulls"] += 1
@@ -246,6 +268,29 @@ class FaceBank:
         for f, _ in self.decompose(phi, gens, order):
             out += orbit(f, gens)
         return out
+
+    def _record(self, R, got, across, idx, XP) -> None:
+        """Top level: the ridges of class R with the facets across them (for :mod:`.closure`), or R as unexpanded."""
+        if self.graph.key([R]) in self.sampled:
+            self.unexpanded.append(R)
+            return
+        pairs = []
+        for (S, _, _), (c, beta) in zip(got, across):
+            m = np.zeros(self.graph.N, dtype=bool)
+            m[idx[XP @ np.asarray(c, dtype=np.int64) == beta]] = True
+            pairs.append((S, m))
+        self.expansions.append(pairs)
+
+    def _sampled(self, idx: np.ndarray, Z: np.ndarray, cols) -> list[Facet]:
+        """Some facets of a large face: those that random rays from its centroid leave it through."""
+        out: dict[bytes, Facet] = {}
+        for _ in range(self.rays):
+            self._check_time()
+            a, b = ray_facet(Z, self.rng)
+            m = np.zeros(self.graph.N, dtype=bool)
+            m[idx[Z @ np.array(a, dtype=np.int64) == b]] = True
+            out.setdefault(np.packbits(m).tobytes(), (m, self._lift(a, cols), int(b)))
+        return list(out.values())
 
     def decompose(self, phi: np.ndarray, gens=None, order=None, start=None) -> list[tuple[Facet, int]]:
         """One facet of conv(phi) per orbit of its stabiliser, with the orbit's size.
@@ -299,10 +344,14 @@ class FaceBank:
             q = open_.pop()  # fewest points first
             (R, h, B), _ = reps[q]
             self._check_time()
-            ridges = [(S_c, S_b) for _, S_c, S_b in self.facets(R)]
+            got = self.facets(R)
+            ridges = [(S_c, S_b) for _, S_c, S_b in got]
             self.stats["wraps"] += len(ridges)
-            for c, beta in _wrap_many(XP, h, B, ridges, R[idx]):
+            across = _wrap_many(XP, h, B, ridges, R[idx])
+            for c, beta in across:
                 add(c, beta)
+            if phi.all():
+                self._record(R, got, across, idx, XP)
             done += 1
             if self.progress is not None and phi.all():
                 self.progress("classes closed", done, len(reps))

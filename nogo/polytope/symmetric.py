@@ -29,6 +29,7 @@ import numpy as np
 
 from ..model import LinearModel
 from .adjacency import Decomposition, OutOfTime, orbit_rows
+from .adjacency import affine_rank as affine_rank_of
 from .derive import _perm_of, _Run, derive_polytope
 from .group import enumerate_group, move_matrix
 from .hull import _coords_matrix, int_matmul
@@ -43,7 +44,8 @@ _MANY = 12  # points per dimension above which the plain hull is used
 def derive_symmetric(model: LinearModel, frame: str = "auto", *, generators: list | None = None, seed: int = 1,
                      time_limit: float | None = None, workers: int | None = None,
                      progress: Progress | None = None, chunk: int = 64, store=None,
-                     force: bool = False, classes: str = "auto") -> Polytope:
+                     force: bool = False, classes: str = "auto", explore: bool = False,
+                     start: list | None = None, prove: bool = True) -> Polytope:
     """The exact facets of the model's set of behaviours, class by class (see the module docstring).
 
     ``generators``: :class:`nogo.symmetry.Generator` moves (e.g. from
@@ -58,6 +60,15 @@ def derive_symmetric(model: LinearModel, frame: str = "auto", *, generators: lis
     graph when the group has more than 20,000 elements (listing stops there).
     ``store``: an optional :class:`nogo.store.RunPieces` where each closed
     class is written as it is found and from which an interrupted run resumes.
+    ``explore``: classes by faces, where faces with more than 40 points beyond
+    a simplex are sampled by rays instead of decomposed (:mod:`.faces`); every
+    class found is an exact facet with its certificate, but the result is
+    ``"partial"`` when a face was sampled, unless the closure proof
+    (:mod:`.closure`; with ``prove``, within the time limit) shows every
+    facet of the sampled faces met by a class found: then ``"complete"``.
+    ``start``: inequalities ``(a, b)``, ``a·p <= b`` with integer ``a`` over
+    ``model.scenario.coordinates()``, that the faces route begins from; those
+    that are not facets of the set are left out with a note.
 
     Example
     -------
@@ -72,6 +83,10 @@ def derive_symmetric(model: LinearModel, frame: str = "auto", *, generators: lis
 
     if classes not in ("auto", "list", "graph", "faces"):
         raise ValueError(f"classes must be 'auto', 'list', 'graph' or 'faces', not {classes!r}")
+    if explore or start:
+        if classes not in ("auto", "faces") or store is not None:
+            raise ValueError("exploring and start inequalities need classes by faces and no run store")
+        classes, force = "faces", True
     gens = list(generators or [])
     lifted, unlifted = [], []
     for g in gens:
@@ -82,6 +97,7 @@ def derive_symmetric(model: LinearModel, frame: str = "auto", *, generators: lis
         P.notes.append("no relabelling is a verified symmetry of this model: the plain hull was used")
         return P
     run = _Run(model, seed, time_limit, workers, progress, chunk)
+    run.explore, run.start, run.prove = explore, list(start or []), prove
     # few random directions: the points are closed under the verified group next, and every class
     # representative is asked of the oracle, which returns any point still missing (step 4)
     run.patience, run.max_tries = 16, 48
@@ -246,28 +262,83 @@ def _zero_one(X) -> bool:
 
 
 def _decompose_faces(run: _Run, Y, group: "_Graph"):
-    """The decomposition on point sets with the bank of faces (:mod:`.faces`); representatives in frame form."""
+    """The decomposition on point sets with the bank of faces (:mod:`.faces`); representatives in frame form.
+
+    Status "complete", "partial" (time) or "sampled" (exploration sampled a face: classes may be missing).
+    """
     from .adjacency import ClassRep
     from .faces import FaceBank, PointGraph, plane
 
     gc = group.classes
     run.stats["classes by"] = "canonical form of the point set (nauty), bank of faces"
+    opts = dict(leaf_excess=_EXPLORE_EXCESS, sample_above=_EXPLORE_EXCESS) if run.explore else {}
     fb = FaceBank(PointGraph(gc.st, gc.X, gc.order), deadline=run.deadline,
-                  seed=int(run.rng.integers(1 << 30)), progress=run.report)
+                  seed=int(run.rng.integers(1 << 30)), progress=run.report, **opts)
+    Yi = Y.astype(np.int64)
     status = "complete"
     try:
-        found = fb.decompose(np.ones(len(gc.X), dtype=bool))
+        found = fb.decompose(np.ones(len(gc.X), dtype=bool), start=_start_facets(run, gc.X, Yi) or None)
     except OutOfTime:
         found, status = list(getattr(fb, "reps", {}).values()), "partial"
     reps = []
-    Yi = Y.astype(np.int64)
     for (m, _, _), orbit in found:
         a, b = plane(Yi, m)
         reps.append(ClassRep(tuple(a), int(b), m, orbit, gc.key(a)[0]))
     if fb.stats["skipped orbits"]:
         run.notes.append(f"{fb.stats['skipped orbits']} orbits of faces' facets were left unexpanded by Balinski's "
                          "rules (fewer than dim facets, or all through one point): the list is still complete")
+    if fb.stats["sampled faces"] and status == "complete":
+        status, run.explored = "sampled", fb  # proven complete or not after the class checks (_classes)
     return reps, status, fb.stats
+
+
+def _prove_closed(run: _Run, fb) -> str:
+    """After an exploration and the class checks: "complete" when the closure proof (:mod:`.closure`)
+    goes through within the time limit, else "sampled"."""
+    from .closure import ClosureProof, NotClosed
+
+    sampled = (f"exploration: {len(fb.unexpanded)} classes were not expanded (their faces have more than "
+               f"{_EXPLORE_EXCESS} points beyond a simplex; some of their ridges were found by {fb.rays} random rays)")
+    proof = ClosureProof(fb, fb.expansions, _EXPLORE_EXCESS)
+    try:
+        if not run.prove:
+            raise NotClosed("not asked for")
+        proof.prove(fb.unexpanded, fb.graph.gens)
+    except OutOfTime:
+        why = "the time limit was reached before the closure proof ended"
+    except NotClosed as err:
+        why = f"no closure proof ({err})"
+    else:
+        run.stats.update({f"closure {k}": v for k, v in proof.stats.items()})
+        run.notes.append(sampled + "; the list is proven complete all the same: every facet of each of their "
+                         f"faces is met by a class found (closure proof, {proof.stats['faces checked']} faces "
+                         f"checked, {proof.stats['faces expanded']} expanded by one hull, "
+                         f"{proof.stats['deepest level']} levels)")
+        return "complete"
+    run.notes.append(sampled + f"; {why}: every class listed is an exact facet, but classes may be missing")
+    return "sampled"
+
+
+_EXPLORE_EXCESS = 40  # exploration: faces up to this many points beyond a simplex take one hull, larger ones rays
+
+
+def _start_facets(run: _Run, X, Yi) -> list:
+    """The start inequalities that are facets of conv(points), over the point graph's coordinates."""
+    out = []
+    for a, b in run.start:
+        a = np.asarray([int(v) for v in a], dtype=np.int64)
+        if len(a) != X.shape[1]:
+            raise PolytopeError(f"a start inequality has {len(a)} coefficients; the coordinates number {X.shape[1]}")
+        vals = X @ a
+        if np.any(vals > b):
+            run.notes.append(f"a start inequality is violated by {int(np.sum(vals > b))} points of the set: not used")
+            continue
+        on = vals == b
+        if not on.any() or affine_rank_of(Yi[on]) != Yi.shape[1] - 1:
+            run.notes.append("a start inequality is valid but not a facet of the set: not used")
+            continue
+        out.append((a, int(b)))
+    return out
 
 
 def _classes(run: _Run, lifted: list, store, how: str = "auto") -> Polytope:
@@ -313,6 +384,8 @@ def _classes(run: _Run, lifted: list, store, how: str = "auto") -> Polytope:
                 raise PolytopeError("the oracle returned a point beyond a facet that the hull already holds")
             break
         run.close_under(run.perms, lifted=True)
+    if status == "sampled":
+        status = _prove_closed(run, run.explored)
     stats["times"]["classes"] = t_dec
     stats["times"]["class checks"] = t_check
     stats["classes"] = len(reps)
@@ -391,6 +464,7 @@ def _expand(run: _Run, points, Y, den, reps, forms, group, verified, status) -> 
         run.notes.append(f"{len(points) - len(vertices)} certified points found on the way are not vertices")
     if status == "partial":
         run.notes.append("time limit reached: the classes listed are those found so far; the list is not complete")
+    status = "partial" if status == "sampled" else status  # an exploration that sampled a face is not complete
     st = run.stats
     st["times"]["exact facet check"] = time.perf_counter() - t0
     st["times"]["total"] = time.perf_counter() - run.t_start
