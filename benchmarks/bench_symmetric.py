@@ -19,6 +19,7 @@ CPU seconds are given beside wall seconds: other work may share the machine.
     python benchmarks/bench_symmetric.py --three-party
     python benchmarks/bench_symmetric.py --four-settings 600
     python benchmarks/bench_symmetric.py --four-settings 600 --classes faces
+    python benchmarks/bench_symmetric.py --four-settings 600 --explore   # all 175 classes found in ~12 s
     python benchmarks/bench_symmetric.py --three-party-only 1   # (or 2) one half of --three-party
 """
 
@@ -90,14 +91,23 @@ def three_party_one(workers: int) -> None:
           f"{w:.2f} s wall {c:.2f} s cpu (this process)")
 
 
-def four_settings(limit: float, how: str = "auto") -> None:
-    P, w, c = timed(lambda: symmetric("bell-2x4", "Bell-local", time_limit=limit, classes=how))
+def four_settings(limit: float, how: str = "auto", explore: bool = False) -> None:
+    kw = dict(classes=how)
+    if explore:  # sampled large faces, from I4422 (Collins & Gisin 2004); the closure proof within the limit
+        from nogo.catalog import load_catalog
+
+        th = load_theory(ROOT / "theories" / "bell-2x4.yaml")
+        kw = dict(explore=True, start=[load_catalog()["I4422"].inequality(th.scenario).canonical()])
+    P, w, c = timed(lambda: symmetric("bell-2x4", "Bell-local", time_limit=limit, **kw))
     sizes = sorted(P.class_sizes or [])
     print(f"\nbell-2x4 / Bell-local (Zambrini Cruzeiro & Gisin, Phys. Rev. A 99, 022104 (2019): 175 classes): "
           f"{P.status}, {len(P.classes)} classes ({sum(sizes):,} facets), group order {P.group_order}, "
           f"{w:.1f} s wall {c:.1f} s cpu (limit {limit:.0f} s), classes by {P.stats.get('classes by')}")
     print("  counters: " + ", ".join(f"{k} {P.stats[k]}" for k in ("ridge hulls", "recursive faces", "wraps",
-                                                                    "bank hits", "skipped orbits") if k in P.stats))
+                                                                    "bank hits", "skipped orbits", "sampled faces")
+                                   if k in P.stats))
+    for n in P.notes:
+        print(f"  note: {n}")
     print(f"  class sizes: {sizes}")
     for stage, t in P.stats["times"].items():
         print(f"      {stage:<20} {t:8.2f} s")
@@ -109,6 +119,8 @@ def main() -> None:
     ap.add_argument("--four-settings", type=float, metavar="SECONDS", help="two parties, four settings")
     ap.add_argument("--classes", default="auto", choices=["auto", "graph", "faces"],
                     help="how --four-settings tells classes apart (faces: point sets and a bank of faces)")
+    ap.add_argument("--explore", action="store_true",
+                    help="--four-settings by exploration from I4422 (large faces sampled, closure proof in the limit)")
     ap.add_argument("--three-party-only", type=int, metavar="WORKERS", help="only the 53,856-facet set, 1 or 2 workers")
     args = ap.parse_args()
     if args.three_party_only:
@@ -119,7 +131,7 @@ def main() -> None:
     if args.three_party:
         three_party()
     if args.four_settings:
-        four_settings(args.four_settings, args.classes)
+        four_settings(args.four_settings, args.classes, args.explore)
 
 
 if __name__ == "__main__":

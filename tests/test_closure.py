@@ -102,3 +102,21 @@ def test_explore_meets_all_175_classes_of_the_four_setting_set(theory):
     for rep_at, _ in P.classes:  # every representative carries a Farkas certificate from the model
         f = P.facets[rep_at]
         assert f.verified is True and f.bound == f.b
+
+
+def test_a_failed_closure_proof_gives_a_missing_facet_and_the_search_goes_on(theory, monkeypatch):
+    # started from positivity alone, sampling finds no I3322: the proof meets a facet that no class found
+    # accounts for, lifts it to a facet of the whole set, and the search continues from it until complete
+    import nogo.polytope.symmetric as S
+    from nogo.compile import compile_bundle
+    from nogo.symmetry import bundle_generators
+
+    monkeypatch.setattr(S, "_EXPLORE_EXCESS", 14)
+    th = theory("bell-2x3")
+    sc = th.scenario
+    pos = [0] * len(sc.coordinates())
+    pos[0] = -1  # -p(+1 +1|1 1) <= 0
+    P = S.derive_symmetric(compile_bundle(th, "Bell-local"), generators=bundle_generators(th, "Bell-local"),
+                           explore=True, start=[(pos, 0)])
+    assert P.stats.get("closure rounds", 1) >= 2
+    assert P.status == "complete" and len(P.facets) == 684 and sorted(P.class_sizes) == [36, 72, 576]

@@ -44,7 +44,16 @@ from .faces import _local, plane
 
 
 class NotClosed(Exception):
-    """A facet of a face was met that the candidate set lacks: the list found is not complete."""
+    """A facet was met that the candidate set lacks: the list found is not complete.
+
+    ``facet``: (mask, c, β) of that facet, over the coordinates; raised from a face it is a facet of that
+    face, and each level up rotates it to the facet of the parent across it (the other facet of the parent
+    through it, also missing), so that :meth:`ClosureProof.prove` raises it as a new facet of the polytope.
+    """
+
+    def __init__(self, message: str, facet=None):
+        super().__init__(message)
+        self.facet = facet
 
 
 def _packed(m: np.ndarray) -> bytes:
@@ -89,9 +98,13 @@ class ClosureProof:
     # -- the top level --------------------------------------------------------
     def prove(self, unexpanded: list[np.ndarray], full_gens) -> None:
         """Raise :class:`NotClosed` unless every unexpanded class satisfies (★)."""
+        every = np.ones(len(self.X), dtype=bool)
         for F in unexpanded:
             C = self._top_candidates(F, unexpanded, full_gens)
-            self._check(F, C, [F], 1)
+            try:
+                self._check(F, C, [F], 1)
+            except NotClosed as err:
+                raise NotClosed(str(err), self._up(every, F, err.facet)) from None
 
     def _top_candidates(self, F, unexpanded, full_gens) -> dict[bytes, np.ndarray]:
         g = self.graph
@@ -156,7 +169,23 @@ class ClosureProof:
                 for inter in np.unique(Cmat & R, axis=0):
                     self._add_if_facet(sub, inter, e - 2)
                 sub.pop(_packed(R), None)
-                self._check(R, sub, chain + [R], level + 1)
+                try:
+                    self._check(R, sub, chain + [R], level + 1)
+                except NotClosed as err:
+                    raise NotClosed(str(err), self._up(phi, R, err.facet)) from None
+
+    def _up(self, phi: np.ndarray, R: np.ndarray, facet):
+        """The facet of phi across a facet of its facet R (gift wrapping inside phi), as (mask, c, β)."""
+        idx = np.flatnonzero(phi)
+        Z, cols = _local(self.X, idx)
+        a, b = plane(Z, R[idx])
+        c = np.zeros(self.X.shape[1], dtype=np.int64)
+        c[cols] = np.asarray(a, dtype=np.int64)
+        XP = self.X[idx]
+        (c2, b2), = _wrap_many(XP, c, int(b), [(facet[1], facet[2])], R[idx])
+        m = np.zeros(len(self.X), dtype=bool)
+        m[idx[XP @ np.asarray(c2, dtype=np.int64) == b2]] = True
+        return m, np.asarray(c2, dtype=np.int64), int(b2)
 
     def _expand(self, phi, idx, R, c, b, C) -> None:
         """Every facet of the small face R, rotated inside phi, must be a member of C."""
@@ -168,4 +197,5 @@ class ClosureProof:
             m = np.zeros(len(self.X), dtype=bool)
             m[idx[XP @ np.asarray(c2, dtype=np.int64) == b2]] = True
             if _packed(m) not in C:
-                raise NotClosed(f"a facet of a face with {int(phi.sum())} points is not among the candidates")
+                raise NotClosed(f"a facet of a face with {int(phi.sum())} points is not among the candidates",
+                                (m, np.asarray(c2, dtype=np.int64), int(b2)))

@@ -292,9 +292,10 @@ def _decompose_faces(run: _Run, Y, group: "_Graph"):
     return reps, status, fb.stats
 
 
-def _prove_closed(run: _Run, fb) -> str:
-    """After an exploration and the class checks: "complete" when the closure proof (:mod:`.closure`)
-    goes through within the time limit, else "sampled"."""
+def _prove_closed(run: _Run, fb):
+    """After an exploration and the class checks: ("complete", None) when the closure proof
+    (:mod:`.closure`) goes through within the time limit; ("sampled", facet) when it meets a facet no class
+    found accounts for (the list is not complete; the search goes on from it); else ("sampled", None)."""
     from .closure import ClosureProof, NotClosed
 
     sampled = (f"exploration: {len(fb.unexpanded)} classes were not expanded (their faces have more than "
@@ -307,6 +308,8 @@ def _prove_closed(run: _Run, fb) -> str:
     except OutOfTime:
         why = "the time limit was reached before the closure proof ended"
     except NotClosed as err:
+        if err.facet is not None:
+            return "sampled", err.facet
         why = f"no closure proof ({err})"
     else:
         run.stats.update({f"closure {k}": v for k, v in proof.stats.items()})
@@ -314,9 +317,9 @@ def _prove_closed(run: _Run, fb) -> str:
                          f"faces is met by a class found (closure proof, {proof.stats['faces checked']} faces "
                          f"checked, {proof.stats['faces expanded']} expanded by one hull, "
                          f"{proof.stats['deepest level']} levels)")
-        return "complete"
+        return "complete", None
     run.notes.append(sampled + f"; {why}: every class listed is an exact facet, but classes may be missing")
-    return "sampled"
+    return "sampled", None
 
 
 _EXPLORE_EXCESS = 40  # exploration: faces up to this many points beyond a simplex take one hull, larger ones rays
@@ -379,13 +382,19 @@ def _classes(run: _Run, lifted: list, store, how: str = "auto") -> Polytope:
             else:
                 new.append(ans.point)
         run.report("classes checked", len(verified), len(forms))
-        if not run.add(new):
-            if new:
-                raise PolytopeError("the oracle returned a point beyond a facet that the hull already holds")
-            break
-        run.close_under(run.perms, lifted=True)
-    if status == "sampled":
-        status = _prove_closed(run, run.explored)
+        if run.add(new):
+            run.close_under(run.perms, lifted=True)
+            continue
+        if new:
+            raise PolytopeError("the oracle returned a point beyond a facet that the hull already holds")
+        if status == "sampled":
+            status, missing = _prove_closed(run, run.explored)
+            if missing is not None:  # a facet no class accounts for: explore again from every class and it
+                stats["closure rounds"] = stats.get("closure rounds", 1) + 1
+                fb = run.explored
+                run.start = [(c, beta) for (_, c, beta), _ in fb.reps.values()] + [missing[1:]]
+                continue
+        break
     stats["times"]["classes"] = t_dec
     stats["times"]["class checks"] = t_check
     stats["classes"] = len(reps)
