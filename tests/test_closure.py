@@ -120,3 +120,29 @@ def test_a_failed_closure_proof_gives_a_missing_facet_and_the_search_goes_on(the
                            explore=True, start=[(pos, 0)])
     assert P.stats.get("closure rounds", 1) >= 2
     assert P.status == "complete" and len(P.facets) == 684 and sorted(P.class_sizes) == [36, 72, 576]
+
+
+def test_shipped_four_setting_list_is_175_facets_of_the_deterministic_points():
+    # results/facets/bell-2x4-explored/classes.json, checked without nogo: every representative, over the
+    # Collins–Gisin coordinates (first outcome +1), holds on the 256 deterministic behaviours with equality
+    # on points of affine rank 23 (a facet; Fine, PRL 48, 291 (1982): the Bell-local set is their hull),
+    # and the classes are the published 175 (Zambrini Cruzeiro & Gisin, PRA 99, 022104 (2019))
+    import itertools
+    import json
+    from pathlib import Path
+
+    d = json.loads((Path(__file__).resolve().parent.parent / "results" / "facets" / "bell-2x4-explored"
+                    / "classes.json").read_text())
+    assert d["coordinates"]["kind"] == "collins-gisin" and d["group order"] == 294_912
+    assert len(d["classes"]) == 175 and sum(c["size"] for c in d["classes"]) == 36_391_264
+    pts = []
+    for a in itertools.product([1, 0], repeat=4):  # 1: outcome +1 at that setting
+        for b in itertools.product([1, 0], repeat=4):
+            pts.append(list(a) + list(b) + [a[x] * b[y] for x in range(4) for y in range(4)])
+    V = np.array(pts, dtype=np.int64)
+    assert len(d["facets"]) == 175
+    for f in d["facets"]:
+        vals = V @ np.array(f["coefficients"], dtype=np.int64)
+        assert vals.max() == f["bound"] and int(np.sum(vals == f["bound"])) == f["vertices on it"]
+        T = V[vals == f["bound"]]
+        assert np.linalg.matrix_rank((T[1:] - T[0]).astype(float)) == 23

@@ -237,6 +237,11 @@ def _decompose(run: _Run, Y, den, points, group, store, how: str):
     """One adjacency decomposition: (class representatives, 'complete' or 'partial', counters)."""
     if isinstance(group, _Graph) and how == "faces" and store is None and _zero_one(group.classes.X):
         return _decompose_faces(run, Y, group)
+    if run.explore or run.start:
+        note = ("exploration and start inequalities need the faces route, whose points are 0/1 in probability "
+                "coordinates; these are not: the adjacency decomposition ran instead")
+        if note not in run.notes:
+            run.notes.append(note)
     dec_args = dict(classes=group.classes, max_depth=4, seeds=16) if isinstance(group, _Graph) else {}
     dec = Decomposition(Y, getattr(group, "perms", None), deadline=run.deadline,
                         seed=int(run.rng.integers(1 << 30)), progress=run.report, **dec_args)
