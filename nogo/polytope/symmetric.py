@@ -279,6 +279,9 @@ def _decompose_faces(run: _Run, Y, group: "_Graph"):
     opts = dict(leaf_excess=_EXPLORE_EXCESS, sample_above=_EXPLORE_EXCESS) if run.explore else {}
     fb = FaceBank(PointGraph(gc.st, gc.X, gc.order), deadline=run.deadline,
                   seed=int(run.rng.integers(1 << 30)), progress=run.report, **opts)
+    before = getattr(run, "explored", None)
+    if before is not None and len(before.X) == len(gc.X) and np.array_equal(before.X, gc.X):
+        fb.bank, fb.sampled = before.bank, before.sampled  # a restart after a failed closure proof: same points
     Yi = Y.astype(np.int64)
     status = "complete"
     try:
@@ -292,7 +295,7 @@ def _decompose_faces(run: _Run, Y, group: "_Graph"):
     if fb.stats["skipped orbits"]:
         run.notes.append(f"{fb.stats['skipped orbits']} orbits of faces' facets were left unexpanded by Balinski's "
                          "rules (fewer than dim facets, or all through one point): the list is still complete")
-    if fb.stats["sampled faces"] and status == "complete":
+    if fb.unexpanded and status == "complete":
         status, run.explored = "sampled", fb  # proven complete or not after the class checks (_classes)
     return reps, status, fb.stats
 
