@@ -112,3 +112,22 @@ def test_one_worker_engine_gives_the_serial_facets(theory):
         one = facets(theory("bell-2x3"), "Bell-local", cache=False)
     assert sorted((f.a, f.b) for f in one.facets) == sorted((f.a, f.b) for f in serial.facets)
     assert len(one.facets) == 684 and len(one.classes) == 3
+
+
+@pytest.mark.slow
+def test_three_party_facets_on_two_workers_equal_the_serial_ones(theory):
+    """53,856 facets in 46 classes (A. Śliwa, Phys. Lett. A 317, 165 (2003)); one face is decomposed again,
+    so the batched rounds of both levels and the chunked ridge hulls are all exercised."""
+    from nogo.compile import compile_bundle
+    from nogo.polytope import derive_symmetric
+    from nogo.symmetry import bundle_generators
+
+    th = theory("bell-3x2")
+    model, gens = compile_bundle(th, "Bell-local"), bundle_generators(th, "Bell-local")
+    serial = derive_symmetric(model, generators=gens)
+    with fanout.engine(local_workers=2):
+        two = derive_symmetric(model, generators=gens)
+    assert serial.stats["recursive faces"] >= 1
+    assert sorted((f.a, f.b) for f in two.facets) == sorted((f.a, f.b) for f in serial.facets)
+    assert len(two.facets) == 53856 and len(two.class_sizes) == 46
+    assert sorted(two.class_sizes) == sorted(serial.class_sizes)
