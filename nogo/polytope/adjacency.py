@@ -427,7 +427,8 @@ def _recursive(task) -> bool:
 
 def _hull_price(task) -> float:
     """Rough relative run time of one ridge hull, for balancing the engine's chunks: cddlib's time grows
-    about twofold per three to four points beyond a simplex (measured on the 380 ridge hulls of the three-party Bell-local set)."""
+    about twofold per three to four points beyond a simplex (measured on the 380 ridge hulls of the
+    three-party Bell-local set)."""
     Z = task[0]
     return 2.0 ** (min(len(Z) - Z.shape[1], 3000) / 3)
 
