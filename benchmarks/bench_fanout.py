@@ -17,7 +17,10 @@ the serial ones, the serial fraction (for ``symmetric``: the time outside the
 ridge hulls in the serial run) with the bound it sets on 2 workers (Amdahl),
 and how many cores *other* programs kept busy during each timing (from
 /proc/stat, minus this process and its children), so that a loaded machine
-shows up as load and not as a slow engine.
+shows up as load and not as a slow engine.  Where the kernel shares the cores
+between sessions (``/proc/sys/kernel/sched_autogroup_enabled`` = 1), one busy
+program in another session holds one of two cores however many workers run
+here: then 2 workers can gain nothing, and the "cores" columns show it.
 
     python benchmarks/bench_fanout.py                 # both workloads, once
     python benchmarks/bench_fanout.py --repeat 3      # three rounds: the range of each ratio
@@ -184,7 +187,8 @@ def report(names: list[str], rows: dict) -> None:
             print(f"  serial {ws:7.2f} s   1 worker {w1:7.2f} s   2 workers {w2:7.2f} s   "
                   f"serial/2w {ws / w2:5.2f}   1w/2w {w1 / w2:5.2f}   same results: {r['same']}")
             print(f"      cores other programs kept busy meanwhile: {os_:.2f}, {o1:.2f}, {o2:.2f};  "
-                  f"CPU seconds of this run (client + workers): {cs:.1f}, {c1:.1f}, {c2:.1f}")
+                  f"CPU seconds of this run (client + workers): {cs:.1f}, {c1:.1f}, {c2:.1f}, "
+                  f"i.e. {cs / ws:.2f}, {c1 / w1:.2f}, {c2 / w2:.2f} cores")
         a = [r["serial"][0] / r[2][0] for r in rows[name]]
         b = [r[1][0] / r[2][0] for r in rows[name]]
         print(f"  serial/2w from {min(a):.2f} to {max(a):.2f};  1w/2w from {min(b):.2f} to {max(b):.2f}")
@@ -209,7 +213,11 @@ def main() -> None:
     ap.add_argument("--only", choices=["symmetric", "family"], help="one workload")
     args = ap.parse_args()
     names = [args.only] if args.only else ["symmetric", "family"]
-    print(f"{os.cpu_count()} cores; load average before: {os.getloadavg()[0]:.2f}")
+    try:
+        auto = Path("/proc/sys/kernel/sched_autogroup_enabled").read_text().strip()
+    except OSError:
+        auto = "unknown"
+    print(f"{os.cpu_count()} cores; load average before: {os.getloadavg()[0]:.2f}; autogroup scheduling: {auto}")
     rows: dict = {}
     for _ in range(args.repeat):
         one_round(names, rows)
