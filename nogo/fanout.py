@@ -101,10 +101,14 @@ def engine(*, scheduler: str | None = None, local_workers: int | None = None,
             cluster = LocalCluster(n_workers=int(local_workers), threads_per_worker=threads_per_worker,
                                    processes=True, dashboard_address=None)
             client = Client(cluster)
-        client.run(_warm_up)
         previous, _CLIENT = _CLIENT, client
         saved, _SCATTERED[:] = list(_SCATTERED), []
         try:
+            try:
+                client.run(_warm_up)
+            except Exception as err:  # e.g. a remote worker without nogo installed
+                raise InputError(f"the Dask workers cannot load nogo: {err}",
+                                 hint="install nogo (the same version) on every worker") from None
             yield client
         finally:
             _CLIENT = previous
