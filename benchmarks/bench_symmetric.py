@@ -68,15 +68,20 @@ def case(theory: str, bundle: str, expected: int, source: str, bare: bool = True
 def three_party() -> None:
     from nogo.fanout import engine
 
+    import time
+
     P1, w1, c1 = timed(lambda: symmetric("bell-3x2", "Bell-local"))
+    t0 = time.perf_counter()
     with engine(local_workers=2):
+        start = time.perf_counter() - t0  # once per session, not part of the derivation
         P2, w2, _ = timed(lambda: symmetric("bell-3x2", "Bell-local"))
     same = {(f.a, f.b) for f in P1.facets} == {(f.a, f.b) for f in P2.facets}
     print(f"\nbell-3x2 / Bell-local (Śliwa, Phys. Lett. A 317, 165 (2003): 53,856 in 46): {len(P1.facets)} facets "
           f"in {len(P1.classes)} classes")
     print(f"  one process              : {w1:8.2f} s wall {c1:8.2f} s cpu")
     print(f"  2-worker Dask LocalCluster: {w2:8.2f} s wall   speed-up 1 -> 2 workers {w1 / w2:5.2f}   "
-          f"same facets: {same}")
+          f"same facets: {same}   (cluster start-up {start:.2f} s apart; 1-worker runs, the serial fraction "
+          "and the machine's other load: benchmarks/bench_fanout.py)")
 
 
 def three_party_one(workers: int) -> None:

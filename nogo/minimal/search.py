@@ -262,8 +262,8 @@ def _by_size(theory: Theory):
 
 
 # -- many inequalities ------------------------------------------------------------
-def _search_job(job) -> SearchResult:
-    theory, ineq, pool, fixed, time_limit, options = job
+def _search_job(theory: Theory, job) -> SearchResult:
+    ineq, pool, fixed, time_limit, options = job
     return find_minimal_sets(theory, ineq, pool, fixed=fixed, time_limit=time_limit, options=options)
 
 
@@ -274,16 +274,18 @@ def find_for_many(theory: Theory, ineqs: list[Inequality], pool: Iterable[str] |
     """One search per inequality (e.g. every version from :func:`nogo.symmetry.orbit`).
 
     Sequentially the compiled models are shared between the searches (the
-    same subset is compiled once); with ``workers > 1`` the searches fan
-    out through :func:`nogo.fanout.fan_out` and ``time_limit`` applies to
-    each.  With a time limit and one worker, the limit is for all of them.
+    same subset is compiled once); with ``workers > 1`` or inside an open
+    :func:`nogo.fanout.engine` the searches fan out through
+    :func:`nogo.fanout.fan_out` (the theory sent to each worker once) and
+    ``time_limit`` applies to each.  With a time limit and one worker, the
+    limit is for all of them.
     """
-    pool = list(pool) if pool is not None else None
-    fixed = list(fixed)
-    if workers and workers > 1:
-        from ..fanout import fan_out
+    from ..fanout import fan_out, is_open
 
-        return fan_out(_search_job, [(theory, i, pool, fixed, time_limit, options) for i in ineqs], workers)
+    pool = list(pool) if pool is not None else None
+    fixed, ineqs = list(fixed), list(ineqs)
+    if (workers and workers > 1 or is_open()) and len(ineqs) > 1:
+        return fan_out(_search_job, [(i, pool, fixed, time_limit, options) for i in ineqs], workers, shared=theory)
     models: dict = {}
     out: list[SearchResult] = []
     deadline = time.monotonic() + time_limit if time_limit else None

@@ -162,9 +162,8 @@ def _amplitudes(prob: Problem, x: np.ndarray) -> np.ndarray:
     return np.array(out)
 
 
-def _start(task) -> tuple[float, np.ndarray, float]:
-    """One local search from a random start (a pure function of picklable inputs)."""
-    prob, x0 = task
+def _start(prob: Problem, x0: np.ndarray) -> tuple[float, np.ndarray, float]:
+    """One local search from a random start (a pure function of picklable inputs; *prob* is shared)."""
     f = lambda x: -float(prob.cost @ _behaviour(prob, x))  # noqa: E731
     if not prob.zeros:
         res = minimize(f, x0, method="L-BFGS-B")
@@ -227,8 +226,8 @@ def optimise(exp: Experiment, ineq: Inequality, *, starts: int = 8, seed: int = 
                    [pos[z] for z in zeros], [len(p.outcomes) for p in sc.labs], exp.lab_rows()[1])
     n = sum(s.n_params for s in slots) + (2 * int(np.prod(exp.state.dims)) if over_state else 0)
     rng = np.random.default_rng(seed)
-    tasks = [(prob, rng.uniform(-np.pi, np.pi, size=n)) for _ in range(starts)]
-    results = fan_out(_start, tasks, workers)
+    starts_x = [rng.uniform(-np.pi, np.pi, size=n) for _ in range(starts)]
+    results = fan_out(_start, starts_x, workers, shared=prob)  # the problem travels to each worker once
     ok = [(v, x, z) for v, x, z in results if z <= tol]
     notes = []
     if not ok:

@@ -266,9 +266,8 @@ def robustness(model: LinearModel, exp: Experiment, noise: State | str | None = 
 
 
 # -- sweeps and plots -------------------------------------------------------------
-def _member(task) -> bool:
-    """Is the behaviour p inside the model's set? (float LP; a sweep point)"""
-    model, p = task
+def _member(model: LinearModel, p) -> bool:
+    """Is the behaviour p inside the model's set? (float LP; a sweep point; *model* is shared)"""
     lp = visibility_lp(model, p, p)  # d = 0: feasibility of p itself
     return lp.status in ("optimal", "unbounded")
 
@@ -281,7 +280,7 @@ def sweep(model: LinearModel, exp: Experiment, inequalities: list[Inequality], n
     p_n = behaviour_vector(exp, nstate.rho)
     vs = np.linspace(0, 1, steps)
     pts = [v * p_s + (1 - v) * p_n for v in vs]
-    inside = fan_out(_member, [(model, p) for p in pts], workers)
+    inside = fan_out(_member, pts, workers, shared=model)  # the model travels to each worker once
     vecs = [np.array([float(x) for x in q.vector()]) for q in inequalities]
     label = {id(q): (f"{q.name}: " if q.name else "") + q.display() for q in inequalities}
     return {"v": vs.tolist(), "inside": inside,

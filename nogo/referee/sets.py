@@ -202,11 +202,10 @@ def _affine_points(vertices, tight):
     return chosen
 
 
-def _certify_chunk(task) -> list[list[Fraction]]:
-    """Farkas multipliers of several inequalities on one model (a pure function, for fan_out)."""
+def _certify_chunk(model, ineqs) -> list[list[Fraction]]:
+    """Farkas multipliers of several inequalities on one model (a pure function, for fan_out; *model* shared)."""
     from ..check import decide
 
-    model, ineqs = task
     out = []
     for t in ineqs:
         # decide() returns only multipliers that passed its exact checks (nogo.exact); a second re-check
@@ -241,8 +240,8 @@ def decide_facet_count(ctx: Context, claim: Claim, v: Verdict) -> None:
 
         ineqs = [_ineq_of(res, f) for f in res.polytope.facets]
         size = max(1, len(ineqs) // (4 * max(1, ctx.workers)))
-        chunks = [(model, ineqs[i:i + size]) for i in range(0, len(ineqs), size)]
-        duals = [y for part in fan_out(_certify_chunk, chunks, ctx.workers) for y in part]
+        chunks = [ineqs[i:i + size] for i in range(0, len(ineqs), size)]
+        duals = [y for part in fan_out(_certify_chunk, chunks, ctx.workers, shared=model) for y in part]
         facets = [{"inequality": ineq_record(t), "multipliers": sparse(y)} for t, y in zip(ineqs, duals)]
         v.checks.append({"type": "facets", "role": "claim", "model": mid, "dimension": res.dim, "facets": facets,
                          "count": n})
