@@ -102,46 +102,36 @@ def family_key(R):
     return [(r.member.key, r.answer, sorted(r.facets.items()), sorted(r.classes.items())) for r in R.results]
 
 
+def _seconds_inside(module, name: str, fn):
+    """:func:`measured`, and the seconds spent inside ``module.name`` meanwhile (patched for the run)."""
+    spent = [0.0]
+    plain = getattr(module, name)
+
+    def timed(*args, **kw):
+        t = time.perf_counter()
+        try:
+            return plain(*args, **kw)
+        finally:
+            spent[0] += time.perf_counter() - t
+
+    setattr(module, name, timed)
+    try:
+        out, w, others = measured(fn)
+    finally:
+        setattr(module, name, plain)
+    return out, w, others, spent[0]
+
+
 def hull_seconds(fn):
     """Run *fn* serially and count the seconds spent inside the ridge hulls (the part that fans out)."""
     from nogo.polytope import adjacency
 
-    spent = [0.0]
-    plain = adjacency._hull_ints
-
-    def timed_hull(Z, deadline=None):
-        t = time.perf_counter()
-        try:
-            return plain(Z, deadline)
-        finally:
-            spent[0] += time.perf_counter() - t
-
-    adjacency._hull_ints = timed_hull
-    try:
-        out, w, others = measured(fn)
-    finally:
-        adjacency._hull_ints = plain
-    return out, w, others, spent[0]
+    return _seconds_inside(adjacency, "_hull_ints", fn)
 
 
 def engine_seconds(fn):
     """:func:`measured`, and the seconds this process spent waiting on Dask fan-outs (the rest ran here)."""
-    spent = [0.0]
-    plain = fanout._on_dask
-
-    def timed_on_dask(*args):
-        t = time.perf_counter()
-        try:
-            return plain(*args)
-        finally:
-            spent[0] += time.perf_counter() - t
-
-    fanout._on_dask = timed_on_dask
-    try:
-        out, w, others = measured(fn)
-    finally:
-        fanout._on_dask = plain
-    return out, w, others, spent[0]
+    return _seconds_inside(fanout, "_on_dask", fn)
 
 
 # -- one round -------------------------------------------------------------------------------------------
