@@ -98,6 +98,7 @@ def derive_symmetric(model: LinearModel, frame: str = "auto", *, generators: lis
         return P
     run = _Run(model, seed, time_limit, workers, progress, chunk)
     run.explore, run.start, run.prove = explore, list(start or []), prove
+    run.classes_before_restart = 0
     # few random directions: the points are closed under the verified group next, and every class
     # representative is asked of the oracle, which returns any point still missing (step 4)
     run.patience, run.max_tries = 16, 48
@@ -397,11 +398,16 @@ def _classes(run: _Run, lifted: list, store, how: str = "auto") -> Polytope:
             raise PolytopeError("the oracle returned a point beyond a facet that the hull already holds")
         if status == "sampled":
             status, missing = _prove_closed(run, run.explored)
-            if missing is not None:  # a facet no class accounts for: explore again from every class and it
+            if missing is not None and len(reps) > run.classes_before_restart:
+                # a facet no class accounts for: explore again from every class and it
+                run.classes_before_restart = len(reps)
                 stats["closure rounds"] = stats.get("closure rounds", 1) + 1
                 fb = run.explored
                 run.start = [(c, beta) for (_, c, beta), _ in fb.reps.values()] + [missing[1:]]
                 continue
+            if missing is not None:  # a restart that found no new class would loop: stop, unproven
+                run.notes.append("a closure proof met a facet that the restarted search did not turn into a new "
+                                 "class: the list is not complete")
         break
     stats["times"]["classes"] = t_dec
     stats["times"]["class checks"] = t_check
