@@ -31,7 +31,7 @@ def to_dict(r: FacetResult, with_vertices: bool = True) -> dict[str, Any]:
         "status": P.status,
         "coordinates": {"kind": P.frame.kind, "names": [f.text for f in P.frame.functionals]},
         "dimension": P.dim,
-        "counts": {"facets": len(r.facets), "classes": len(r.classes), "vertices": len(P.vertices)},
+        "counts": _counts(r, P),
         "symmetries": {"used": r.symmetries, "not symmetries of this set": r.dropped_symmetries},
         "classes": [{"name": c.name, "size": c.size, "representative": r.facets[c.representative].text,
                      **({"known as": c.known_as} if c.known_as else {})} for c in r.classes],
@@ -137,3 +137,12 @@ def comparison_to_dict(c: Comparison) -> dict[str, Any]:
         "facets of second that are not facets of first": facet_list(c.second, c.second_only_facets),
         "notes": c.notes,
     }
+
+
+def _counts(r, P) -> dict:
+    """Facets (every member of every class), classes, vertices; "facets listed" when only representatives are."""
+    total = sum(c.size for c in r.classes) if r.classes else len(r.facets)
+    out = {"facets": total, "classes": len(r.classes), "vertices": len(P.vertices)}
+    if total != len(r.facets):
+        out["facets listed"] = len(r.facets)
+    return out

@@ -135,6 +135,7 @@ def test_shipped_four_setting_list_is_175_facets_of_the_deterministic_points():
                     / "classes.json").read_text())
     assert d["coordinates"]["kind"] == "collins-gisin" and d["group order"] == 294_912
     assert len(d["classes"]) == 175 and sum(c["size"] for c in d["classes"]) == 36_391_264
+    assert d["counts"] == {"facets": 36_391_264, "classes": 175, "vertices": 256, "facets listed": 175}
     pts = []
     for a in itertools.product([1, 0], repeat=4):  # 1: outcome +1 at that setting
         for b in itertools.product([1, 0], repeat=4):
