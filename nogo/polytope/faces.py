@@ -269,17 +269,13 @@ class FaceBank:
             out += orbit(f, gens)
         return out
 
-    def _record(self, R, got, across, idx, XP) -> None:
-        """Top level: the ridges of class R with the facets across them (for :mod:`.closure`), or R as unexpanded."""
+    def _record(self, R, got, across) -> None:
+        """Top level: the ridges of class R with the facets across them (masks, for :mod:`.closure`), or R as
+        unexpanded when its face was sampled."""
         if self.graph.key([R]) in self.sampled:
             self.unexpanded.append(R)
             return
-        pairs = []
-        for (S, _, _), (c, beta) in zip(got, across):
-            m = np.zeros(self.graph.N, dtype=bool)
-            m[idx[XP @ np.asarray(c, dtype=np.int64) == beta]] = True
-            pairs.append((S, m))
-        self.expansions.append(pairs)
+        self.expansions.append([(S, m) for (S, _, _), m in zip(got, across)])
 
     def _sampled(self, idx: np.ndarray, Z: np.ndarray, cols) -> list[Facet]:
         """Some facets of a large face: those that random rays from its centroid leave it through."""
@@ -308,7 +304,8 @@ class FaceBank:
         member: set[bytes] = set()
         open_: list[bytes] = []
 
-        def add(c, beta) -> None:
+        def add(c, beta) -> np.ndarray:
+            """Keep the facet c·x <= beta of phi (a new class when its form is new); its point mask."""
             c = np.asarray(c, dtype=np.int64)
             vals = XP @ c
             if np.any(vals > beta):
@@ -317,7 +314,7 @@ class FaceBank:
             m[idx[vals == beta]] = True
             packed = np.packbits(m).tobytes()
             if packed in member:
-                return
+                return m
             member.add(packed)
             key = g.key([m, phi])
             if key not in reps:
@@ -326,6 +323,7 @@ class FaceBank:
                     raise PolytopeError("a stabiliser order does not divide the face's")
                 reps[key] = ((m, c, int(beta)), order // st)
                 open_.append(key)
+            return m
 
         if start:
             for c, beta in start:
@@ -347,11 +345,9 @@ class FaceBank:
             got = self.facets(R)
             ridges = [(S_c, S_b) for _, S_c, S_b in got]
             self.stats["wraps"] += len(ridges)
-            across = _wrap_many(XP, h, B, ridges, R[idx])
-            for c, beta in across:
-                add(c, beta)
+            across = [add(c, beta) for c, beta in _wrap_many(XP, h, B, ridges, R[idx])]
             if phi.all():
-                self._record(R, got, across, idx, XP)
+                self._record(R, got, across)
             done += 1
             if self.progress is not None and phi.all():
                 self.progress("classes closed", done, len(reps))
